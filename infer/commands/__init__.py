@@ -1,0 +1,1 @@
+"""Command implementations, one module per ``qhat`` command."""

@@ -1,0 +1,14 @@
+"""``qhat demo``: not built yet."""
+
+from __future__ import annotations
+
+
+def add_arguments(parser) -> None:
+    """Register the options of ``qhat demo``."""
+
+
+def run(args) -> int:
+    """Run ``qhat demo``."""
+    from infer.errors import InputError
+
+    raise InputError("this command is not built yet", source="qhat demo")

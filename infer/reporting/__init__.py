@@ -1,0 +1,1 @@
+"""Rendering of results: text, JSON, Markdown, plots, report folders."""
