@@ -1,14 +1,68 @@
-"""``qhat estimate``: not built yet."""
+"""``qhat estimate STUDY.toml``: the posterior of a study, written as a report folder."""
 
 from __future__ import annotations
+
+import sys
+from pathlib import Path
 
 
 def add_arguments(parser) -> None:
     """Register the options of ``qhat estimate``."""
+    parser.add_argument("study", metavar="STUDY.toml", help="the study file (TOML)")
+    parser.add_argument("--out", metavar="DIR",
+                        help="report folder (default: reports/<study file name>)")
+    parser.add_argument("--seed", type=int, metavar="N",
+                        help="random seed (overrides [sampler] seed)")
+    parser.add_argument("--force", action="store_true", help="replace an existing folder")
+    parser.add_argument("--json", action="store_true", help="print summary.json to stdout")
+    parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
+
+
+def progress_printer(quiet: bool):
+    """A progress callback writing to stderr when it is a terminal, else None."""
+    if quiet or not sys.stderr.isatty():
+        return None
+
+    def show(steps: int, max_steps: int) -> None:
+        print(f"\rqhat: sampling, {steps} steps per ensemble (cap {max_steps})",
+              end="", file=sys.stderr, flush=True)
+
+    return show
+
+
+def default_out(study_path: str) -> Path:
+    """reports/<file-name-safe stem of the study file>."""
+    from infer.reporting.folder import safe_name
+
+    return Path("reports") / safe_name(Path(study_path).stem, "study")
 
 
 def run(args) -> int:
     """Run ``qhat estimate``."""
     from infer.errors import InputError
+    from infer.reporting.folder import check_destination, terminate_as_interrupt
+    from infer.study import load_study
 
-    raise InputError("this command is not built yet", source="qhat estimate")
+    if args.seed is not None and args.seed < 0:
+        raise InputError(f"{args.seed} is negative", source="--seed")
+    study = load_study(args.study)
+    out = Path(args.out) if args.out else default_out(args.study)
+    check_destination(out, args.force)
+    show = progress_printer(args.quiet)
+    with terminate_as_interrupt():
+        from infer.estimation import estimate
+        from infer.reporting.report import write_report
+
+        result, timing = estimate(study, seed=args.seed, progress=show)
+        if show:
+            print(file=sys.stderr)
+        write_report(result, out, force=args.force, timing=timing)
+    if args.json:
+        from infer.reporting.jsonout import dumps
+
+        sys.stdout.write(dumps(result.summary))
+    else:
+        from infer.reporting.markdown import terminal_summary
+
+        print(terminal_summary(result, out))
+    return 0
