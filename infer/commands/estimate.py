@@ -47,6 +47,8 @@ def run(args) -> int:
         raise InputError(f"{args.seed} is negative", source="--seed")
     study = load_study(args.study)
     out = Path(args.out) if args.out else default_out(args.study)
+    if not args.out:
+        out.parent.mkdir(exist_ok=True)
     check_destination(out, args.force)
     show = progress_printer(args.quiet)
     with terminate_as_interrupt():
