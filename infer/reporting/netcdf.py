@@ -19,7 +19,7 @@ def to_datatree(result, log_prob: np.ndarray | None = None):
     Observations are named ``obs1, obs2, ...`` in study order; their labels and kinds are
     stored as attributes of the ``observed_data`` group.
     """
-    import arviz as az
+    import arviz_base as az  # the converters alone; all of arviz costs seconds to import
 
     names = _observation_names(result)
     ll = result.log_likelihood
