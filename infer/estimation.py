@@ -67,6 +67,11 @@ def estimate(study, seed: int | None = None, settings: SamplerSettings | None = 
         grid_result = grid_posterior(model, study.interval)
         grid_seconds = time.perf_counter() - t0
     result = summarise(model, run, rng, grid=grid_result, seed=seed)
+    if study.model == "drift":
+        from infer.drift_comparison import compare_drift_with_deterministic
+
+        result.summary["drift_comparison"] = compare_drift_with_deterministic(
+            study, result.posterior, rng)
     result.log_prob = run.log_prob
     timing = {"seconds": time.perf_counter() - started, "sampling_seconds": run.seconds,
               "grid_seconds": grid_seconds}

@@ -121,6 +121,17 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
     lines += ["", "`contraction` is 1 - posterior sd / prior sd on the sampling scale (log10 for "
               "log-scale priors): near 1 the data decide, near 0 the prior does."]
 
+    if "drift_comparison" in s:
+        c = s["drift_comparison"]
+        lines += ["", "## Drift against the deterministic balance", "", c["statement"], ""]
+        rows = [[n, fmt(c["drift"][n]["median"]),
+                 f"{fmt(c['drift'][n]['lower'])} – {fmt(c['drift'][n]['upper'])}",
+                 fmt(c["deterministic"][n]["median"]),
+                 f"{fmt(c['deterministic'][n]['lower'])} – {fmt(c['deterministic'][n]['upper'])}"]
+                for n in result.free]
+        lines += _table(["parameter", "drift median", f"drift {pct}", "deterministic median",
+                         f"deterministic {pct}"], rows)
+
     lines += ["", "## Diagnostics", ""]
     taus = ", ".join(f"{k} {v:.1f}" for k, v in diag["autocorr_time"].items())
     lines += [f"- Converged: **{'yes' if diag['converged'] else 'NO'}** (every free parameter "
