@@ -87,7 +87,8 @@ def _log10(x):
 
 
 def identifiability(free: list[str], posterior: dict, prior: dict, parameters_summary: dict,
-                    frequency_only: bool, inheritance: str) -> list[str]:
+                    frequency_only: bool, inheritance: str,
+                    recessive: bool = False) -> list[str]:
     """Plain statements of what the data inform and what the prior decides.
 
     A combination of parameters (on the log10 scale) is said to be identified when its
@@ -107,8 +108,9 @@ def identifiability(free: list[str], posterior: dict, prior: dict, parameters_su
         statements.append("The data inform " + ", ".join(weak) +
                           " only weakly (contraction between 0.1 and 0.5).")
     if prior_decides:
+        its = "its interval" if len(prior_decides) == 1 else "their intervals"
         statements.append("The prior, not the data, decides " + ", ".join(prior_decides) +
-                          ": read their intervals as the prior's.")
+                          f": read {its} as the prior's.")
     combos = []
     if {"mu", "s"} <= set(free) or ({"mu", "h"} <= set(free)):
         names = [n for n in ("mu", "s", "h") if n in free]
@@ -135,7 +137,7 @@ def identifiability(free: list[str], posterior: dict, prior: dict, parameters_su
             )
             break
     if frequency_only:
-        target = "mu/s" if inheritance == "x-linked" else "mu/(h*s)"
+        target = "mu/s" if inheritance == "x-linked" or recessive else "mu/(h*s)"
         statements.append(
             "Only frequency data (counts or affected births) were given: under balance they "
             f"identify at most {target} (the equilibrium frequency), not mu, s and h "
@@ -255,8 +257,10 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
 
     frequency_kinds = {"allele-count", "genotype-count", "affected"}
     frequency_only = all(o.kind in frequency_kinds for o in model.observations)
+    h_prior = study.parameters["h"]
+    recessive = isinstance(h_prior, Fixed) and float(h_prior.value) == 0.0
     statements = identifiability(model.free, posterior, prior, parameters, frequency_only,
-                                 study.inheritance)
+                                 study.inheritance, recessive)
 
     diagnostics = {
         "converged": bool(run.converged), "walkers": run.walkers,
