@@ -37,6 +37,8 @@ class GridPosterior:
         name -> {"median", "lower", "upper"} at the study's interval.
     points : int
         Number of posterior evaluations used.
+    cdf : dict
+        name -> marginal posterior distribution function at ``axes[name]``.
     """
 
     names: list[str]
@@ -44,6 +46,11 @@ class GridPosterior:
     marginal_density: dict[str, np.ndarray]
     quantiles: dict[str, dict[str, float]]
     points: int
+    cdf: dict[str, np.ndarray] | None = None
+
+    def cdf_at(self, name: str, value: float) -> float:
+        """Marginal posterior probability that ``name`` is at most ``value``."""
+        return float(np.interp(value, self.axes[name], self.cdf[name], left=0.0, right=1.0))
 
 
 def _evaluate(model, mesh: np.ndarray, chunk: int = 40_000) -> np.ndarray:
@@ -107,7 +114,7 @@ def grid_posterior(model, interval: float = 0.95, points: int | None = None) -> 
     lp = _evaluate(model, _mesh(axes)).reshape(tuple(len(a) for a in axes))
     evaluations += lp.size
     weight = np.exp(lp - lp.max())
-    result_axes, densities, quantiles = {}, {}, {}
+    result_axes, densities, quantiles, cdfs = {}, {}, {}, {}
     tail = (1.0 - interval) / 2.0
     for j, (name, prior) in enumerate(zip(model.free, model.priors, strict=True)):
         other = tuple(k for k in range(ndim) if k != j)
@@ -122,9 +129,10 @@ def grid_posterior(model, interval: float = 0.95, points: int | None = None) -> 
         x, log_jac = prior.from_unconstrained(z)
         result_axes[name] = np.asarray(x)
         densities[name] = marginal_z * np.exp(-log_jac)
+        cdfs[name] = cdf
         quantiles[name] = {"median": float(x_q[0]), "lower": float(x_q[1]),
                            "upper": float(x_q[2])}
-    return GridPosterior(list(model.free), result_axes, densities, quantiles, evaluations)
+    return GridPosterior(list(model.free), result_axes, densities, quantiles, evaluations, cdfs)
 
 
 def compare_with_draws(grid: GridPosterior, draws: dict[str, np.ndarray], interval: float,
