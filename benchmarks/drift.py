@@ -1,0 +1,89 @@
+"""Throughput and accuracy of infer.drift on parameter arrays.
+
+Prints, for 1e3 and 1e4 parameter rows drawn over DESIGN.md's range, the median wall time
+of several runs of log_normaliser and log_binomial_probability (one allele-count
+log-likelihood: the goal is <= 0.1 s for 10,000 rows on one core), per-row cost, the cost
+relative to a baseline of the same size (numpy's scipy.special.betaln on the rows, the
+neutral closed form), and the largest relative error against the mpmath reference on a
+random sample of rows.
+
+Usage: .venv/bin/python benchmarks/drift.py [--sample 12] [--runs 5]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import time
+
+import numpy as np
+from scipy import special
+
+sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", "tests"))
+sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
+
+import drift_reference as reference  # noqa: E402
+
+from infer import drift  # noqa: E402
+
+
+def draw(rng, rows):
+    """Rows over 4Ne·mu in [1e-6, 10], 4Ne·s in [0, 1e5], h in [0, 1], 4Ne·nu in [1e-6, 1]."""
+    Ne = 10 ** rng.uniform(1, 5, rows)
+    a = 10 ** rng.uniform(-6, 1, rows)
+    four_ne_s = np.minimum(10 ** rng.uniform(-1, 5, rows), 4 * Ne)
+    b = 10 ** rng.uniform(-6, 0, rows)
+    return Ne, a / (4 * Ne), four_ne_s / (4 * Ne), rng.uniform(0, 1, rows), b / (4 * Ne)
+
+
+def median_time(function, runs):
+    times = []
+    for _ in range(runs):
+        start = time.perf_counter()
+        function()
+        times.append(time.perf_counter() - start)
+    return float(np.median(times))
+
+
+def main():
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--sample", type=int, default=12, help="rows checked against mpmath")
+    parser.add_argument("--runs", type=int, default=5, help="timed runs (median reported)")
+    options = parser.parse_args()
+    rng = np.random.default_rng(1)
+    print(f"{'rows':>6} {'function':<28} {'median s':>9} {'us/row':>8} {'x betaln':>9}")
+    for rows in (1_000, 10_000):
+        params = draw(rng, rows)
+        Ne, mu, s, h, nu = params
+        a, b = 4 * Ne * mu, 4 * Ne * nu
+        base = median_time(lambda a=a, b=b: special.betaln(a, b), options.runs)
+        for name, call in [
+            ("log_normaliser", lambda p=params: drift.log_normaliser(*p)),
+            ("log_binomial_probability", lambda p=params: drift.log_binomial_probability(7, 2e3, *p)),  # noqa: E501
+        ]:
+            seconds = median_time(call, options.runs)
+            per_row = 1e6 * seconds / rows
+            print(
+                f"{rows:>6} {name:<28} {seconds:>9.4f} {per_row:>8.2f} {seconds / base:>9.0f}"
+            )
+    Ne, mu, s, h, nu = draw(rng, options.sample)
+    n = (10 ** rng.uniform(0, 6, options.sample)).astype(int)
+    k = (rng.uniform(0, 1, options.sample) * n).astype(int)
+    got_z = drift.log_normaliser(Ne, mu, s, h, nu)
+    got_p = drift.log_binomial_probability(k, n, Ne, mu, s, h, nu)
+    worst_z = worst_p = 0.0
+    for i in range(options.sample):
+        args = (Ne[i], mu[i], s[i], h[i], nu[i])
+        ref_z = float(reference.log_z_drift(*args))
+        ref_p = float(reference.log_binomial(int(k[i]), int(n[i]), *args))
+        worst_z = max(worst_z, abs(np.expm1(got_z[i] - ref_z)))
+        worst_p = max(worst_p, abs(np.expm1(got_p[i] - ref_p)))
+    print(
+        f"max relative error vs mpmath over {options.sample} random rows: "
+        f"normaliser {worst_z:.2e}, binomial probability {worst_p:.2e}"
+    )
+
+
+if __name__ == "__main__":
+    main()
