@@ -89,21 +89,11 @@ def _simulate_table(observation, truth: dict, state, inheritance: str,
 
 
 def _stationary_draw(truth: dict, rng: np.random.Generator) -> float:
-    """One allele frequency from Wright's stationary density at the truth (inverse cdf
-    on a fine grid of its quantiles)."""
+    """One allele frequency from Wright's stationary density at the truth."""
     from infer import drift
 
-    u = rng.uniform()
-    grid_p = np.linspace(0.0005, 0.9995, 1000)
-    qs = [float(np.ravel(drift.stationary_summary(truth["Ne"], truth["mu"], truth["s"],
-                                                  truth["h"], truth["nu"],
-                                                  interval=1 - 2 * p)["lower"])[0])
-          for p in grid_p[:500]]
-    qs += [float(np.ravel(drift.stationary_summary(truth["Ne"], truth["mu"], truth["s"],
-                                                   truth["h"], truth["nu"],
-                                                   interval=2 * p - 1)["upper"])[0])
-           for p in grid_p[500:]]
-    return float(np.interp(u, grid_p, qs))
+    return float(drift.sample_stationary(rng, truth["Ne"], truth["mu"], truth["s"],
+                                         truth["h"], truth["nu"]))
 
 
 def simulate_study(study, truth: dict, rng: np.random.Generator):

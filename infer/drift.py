@@ -61,6 +61,8 @@ __all__ = [
     "probability_absent",
     "log_binomial_probability",
     "log_expectation",
+    "stationary_quantile",
+    "sample_stationary",
 ]
 
 _GL_T, _GL_W = np.polynomial.legendre.leggauss(10)
@@ -367,6 +369,26 @@ def _quantile(layout, log_z, p):
     return result
 
 
+def stationary_quantile(p, Ne, mu, s, h, nu):
+    """Quantile function of Wright's stationary density; ``p`` broadcasts with the rest.
+
+    Quantiles below the smallest double are 0.0, as in :func:`stationary_summary`.
+    """
+    shape, a, b, c, h, (p,) = _exponents(Ne, mu, s, h, nu, p)
+    if np.any((p <= 0) | (p >= 1)):
+        raise InputError("probabilities must lie in (0, 1)", field="p")
+    layout = _Layout(a, b, c, h)
+    return _quantile(layout, layout.log_total(), p).reshape(shape)
+
+
+def sample_stationary(rng, Ne, mu, s, h, nu):
+    """One draw of the allele frequency from Wright's density per parameter row
+    (inverse distribution function of a uniform draw from ``rng``)."""
+    shape = np.broadcast_shapes(*(np.shape(v) for v in (Ne, mu, s, h, nu)))
+    u = rng.uniform(np.finfo(float).tiny, 1.0, size=shape)
+    return stationary_quantile(u, Ne, mu, s, h, nu)
+
+
 def _quantile_inside(layout, log_z, p, rows):
     """Safeguarded Newton in y on the CDF for the selected (interior) rows."""
     sub = _Layout.__new__(_Layout)
@@ -375,6 +397,7 @@ def _quantile_inside(layout, log_z, p, rows):
     log_left, log_z = layout.log_left[rows], log_z[rows]
     lo, hi = layout.y_lo[rows].copy(), layout.y_hi[rows].copy()
     y = 0.5 * (lo + hi)
+    p = np.broadcast_to(p, rows.shape)[rows] if np.ndim(p) else p
     for _ in range(80):
         cdf = np.exp(np.logaddexp(log_left, sub.log_interior(upper=y)) - log_z)
         gap = cdf - p

@@ -26,6 +26,7 @@ __all__ = [
 PRIOR_DRAWS = 20_000
 #: posterior draws (at most) used for derived quantities and predictive checks
 DERIVED_DRAWS = 20_000
+DRIFT_DERIVED_DRAWS = 2_000
 
 
 @dataclass
@@ -228,11 +229,21 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
                 "scale": "linear", "defaulted": name in study.defaulted,
             }
 
-    keep = _subsample(chains * draws, DERIVED_DRAWS, rng)
+    # Wright's density costs a quadrature per draw: fewer draws under drift
+    keep = _subsample(chains * draws, DRIFT_DERIVED_DRAWS if model.drift else DERIVED_DRAWS,
+                      rng)
     sub_params = {k: v[keep] for k, v in params.items()}
     with np.errstate(all="ignore"):
         state = model.state(sub_params)
         derived_flat = derived_quantities(model, sub_params, state)
+        predictive_state = state
+        if model.drift:
+            from infer import drift
+            from infer.state import State
+
+            x = drift.sample_stationary(rng, sub_params["Ne"], sub_params["mu"],
+                                        sub_params["s"], sub_params["h"], sub_params["nu"])
+            predictive_state = State.at_frequency(sub_params, x)
     derived = {k: v[None, :] for k, v in derived_flat.items()}
     derived_summary = {}
     for k, v in derived.items():
@@ -243,8 +254,9 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     replicated, predictive = [], []
     for i, obs in enumerate(model.observations):
         with np.errstate(all="ignore"):
-            rep = np.asarray(obs.simulate(state, rng), dtype=float)
-            expected = np.asarray(obs.expected(state), dtype=float)
+            at = predictive_state if obs.depends_on_frequency else state
+            rep = np.asarray(obs.simulate(at, rng), dtype=float)
+            expected = np.asarray(obs.expected(at), dtype=float)
         replicated.append(rep[None, :])
         observed = float(obs.statistic())
         predictive.append({
