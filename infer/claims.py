@@ -59,13 +59,15 @@ from infer.priors import (
     Fixed,
     LogUniform,
     Uniform,
-    _check_keys,
-    _choice,
-    _fmt,
-    _real,
     parse_parameter,
 )
 from infer.study import Study, parse_study
+from infer.validate import (
+    check_keys as _check_keys,
+    choice as _choice,
+    quote_value as _fmt,
+    real_number as _real,
+)
 
 __all__ = [
     "Claim",

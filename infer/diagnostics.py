@@ -1,7 +1,7 @@
-"""Convergence diagnostics on raw (chain, draw) arrays: rank-normalised split R-hat and
-bulk / tail effective sample size.
+"""Convergence diagnostics on raw (chain, draw) arrays.
 
-The estimators are those of Vehtari, Gelman, Simpson, Carpenter & Bürkner (2021),
+Rank-normalised split R-hat and bulk / tail effective sample size. The estimators are
+those of Vehtari, Gelman, Simpson, Carpenter & Bürkner (2021),
 "Rank-normalization, folding, and localization: an improved R-hat for assessing
 convergence of MCMC", Bayesian Analysis 16:667, with the autocorrelation sum truncated by
 Geyer's initial monotone sequence (Geyer 1992, Statistical Science 7:473). They are

@@ -45,14 +45,16 @@ from infer.priors import (
     PARAMETERS,
     Fixed,
     Prior,
-    _check_keys,
-    _choice,
-    _fmt,
-    _real,
     defaults_for,
     parse_parameter,
 )
 from infer.state import State
+from infer.validate import (
+    check_keys as _check_keys,
+    choice as _choice,
+    quote_value as _fmt,
+    real_number as _real,
+)
 
 __all__ = [
     "Study",

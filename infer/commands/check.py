@@ -1,4 +1,6 @@
-"""``qhat check CLAIM.toml``: do a paper's numbers fit together under mutation-selection balance?
+"""``qhat check CLAIM.toml``: a consistency check of a paper's published numbers.
+
+Do they fit together under mutation-selection balance?
 
 Prints each finding with its severity; ``--json`` prints ``{consistent, findings,
 implied}``; ``--out DIR`` writes ``report.md``, ``check.json`` and ``balance.png``

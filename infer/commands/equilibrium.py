@@ -261,7 +261,8 @@ def render_table(result: dict) -> str:
                       a["range_note"]))
     widths = [max(len(row[i]) for row in table) for i in range(4)]
     for row in table:
-        lines.append("  " + "  ".join(c.ljust(w) for c, w in zip(row[:4], widths)) + "  " + row[4])
+        cells = "  ".join(c.ljust(w) for c, w in zip(row[:4], widths, strict=True))
+        lines.append("  " + cells + "  " + row[4])
     lines += ["", f"affected newborns (penetrance {p['penetrance']:g})"]
     labels = {"dominant": "dominant (Aa + aa)", "recessive": "recessive (aa)",
               "x-linked-male": "x-linked, among male births"}
