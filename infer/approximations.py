@@ -63,7 +63,7 @@ class Approximation:
 
 
 def _finish(name, formula, value, predicted_error, exact, exists, note):
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         value = np.where(np.isfinite(value), value, np.nan)
         relative = np.where(exists, value / exact - 1.0, np.nan)
     in_range = exists & np.isfinite(value) & (predicted_error <= RANGE_TOLERANCE)
@@ -109,7 +109,7 @@ def autosomal_approximations(mu, s, h, F=0.0) -> dict[str, Approximation]:
     a = one_f * (1.0 - 2.0 * h) * s
     b = one_f * h * s * (1.0 + mu) + F * s
     b_f = s * (h * one_f + F)
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         hs = h * s
         linear = mu / hs
         linear_error = np.abs(a) * mu / b_f**2 + np.abs(b_f / hs - 1.0) + mu
@@ -174,7 +174,7 @@ def x_linked_approximations(mu, s, h, alpha=1.0) -> dict[str, Approximation]:
     exact = x_linked_balance(mu, s, h, 0.0, 0.0, alpha)
     x, exists = exact.q_male, exact.exists
     mu_f, mu_m = sex_specific_rates(mu, alpha)
-    with np.errstate(invalid="ignore", divide="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         haldane = 3.0 * mu / s
         hs = h * s
         rare = (2.0 * mu_f + (1.0 - hs) * mu_m) / (s * (1.0 + 2.0 * h - hs))

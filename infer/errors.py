@@ -5,6 +5,12 @@ from __future__ import annotations
 __all__ = ["InputError", "ConvergenceWarning"]
 
 
+def _one_line(text) -> str:
+    """Whitespace collapsed and control characters escaped: always one printable line."""
+    flat = " ".join(str(text).split())
+    return "".join(c if c.isprintable() else repr(c)[1:-1] for c in flat)
+
+
 class InputError(ValueError):
     """Bad user input: a study, claim or batch file, or a command-line option.
 
@@ -31,9 +37,8 @@ class InputError(ValueError):
         super().__init__(str(self))
 
     def __str__(self) -> str:
-        parts = [p for p in (self.source, self.field) if p]
-        text = " ".join(str(self.message).split())  # always one line
-        return ": ".join([*parts, text])
+        parts = [_one_line(p) for p in (self.source, self.field, self.message) if p]
+        return ": ".join(parts)
 
     def located(self, source: str | None = None, field_prefix: str | None = None) -> InputError:
         """Return a copy with the source set and the field prefixed (for nested parsers)."""

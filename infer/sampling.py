@@ -173,14 +173,31 @@ def run_to_convergence(
         lp = np.where(np.isfinite(out[:, 0]), out[:, 0], -np.inf)
         return lp, out[:, 1:]
 
+    interrupted = []
+    width = []
+
     def wrapped(points):
-        lp, extra = vectorised(points)
+        # emcee prints a traceback for any exception raised in here, so an interrupt is
+        # noted, the step finished with -inf, and the interrupt raised again outside.
+        try:
+            lp, extra = vectorised(points)
+        except KeyboardInterrupt:
+            interrupted.append(True)
+            lp = np.full(len(points), -np.inf)
+            extra = np.zeros((len(points), width[0]))
         # emcee reads column 0 as the log probability and the rest as blobs.
         return np.column_stack([lp, extra]) if extra.shape[1] else lp
+
+    def advance(state, steps_):
+        for state in sampler.sample(state, iterations=steps_, store=True):
+            if interrupted:
+                raise KeyboardInterrupt
+        return state
 
     groups = settings.ensembles
     sampler = _seeded_sampler(emcee, walkers * groups, ndim, wrapped, rng, groups)
     state = np.concatenate([initial(rng, walkers) for _ in range(groups)])
+    width.append(vectorised(state)[1].shape[1])  # blob columns, known before emcee runs
 
     def by_ensemble(values: np.ndarray) -> np.ndarray:
         """(steps, groups * walkers, ...) -> (groups, steps, walkers, ...)."""
@@ -194,7 +211,7 @@ def run_to_convergence(
     converged = False
     while True:
         block = min(block, settings.max_steps - steps)
-        state = sampler.run_mcmc(state, block, progress=False)
+        state = advance(state, block)
         steps += block
         if progress is not None:
             progress(steps, settings.max_steps)
@@ -211,7 +228,7 @@ def run_to_convergence(
             break
         if steps >= settings.max_steps:
             messages.append(
-                f"NOT CONVERGED: stopped at the step cap of {settings.max_steps} steps per "
+                f"stopped at the step cap of {settings.max_steps} steps per "
                 "ensemble before every criterion held"
             )
             break

@@ -59,7 +59,10 @@ def real_number(value: Any, field: str) -> float:
     """A finite real number (int or float, never a boolean)."""
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise InputError(f"{quote_value(value)} is not a number", field=field)
-    number = float(value)
+    try:
+        number = float(value)
+    except OverflowError:  # TOML integers have no size limit
+        raise InputError(f"{quote_value(value)} is too large", field=field) from None
     if not math.isfinite(number):
         raise InputError(f"{quote_value(value)} is not a finite number", field=field)
     return number

@@ -44,7 +44,7 @@ def test_step_cap_is_reported():
     run = run_to_convergence(gaussian, start, 2, np.random.default_rng(1), settings)
     assert not run.converged
     assert run.steps == 200
-    assert any("NOT CONVERGED" in m for m in run.messages)
+    assert any("step cap" in m for m in run.messages)
 
 
 def test_ensembles_do_not_exchange_information():

@@ -270,8 +270,9 @@ def _write_folder(result, out: Path, force: bool) -> None:
     matplotlib.use("Agg")
     with atomic_folder(out, force=force) as folder:
         (folder / "check.json").write_text(dumps(result.as_dict()), encoding="utf-8")
-        figure = balance_figure(result)
-        figure.savefig(folder / "balance.png", dpi=100)
-        figure.clear()
+        with matplotlib.rc_context({"text.parse_math": False}):  # "$" in a title is text
+            figure = balance_figure(result)
+            figure.savefig(folder / "balance.png", dpi=100)
+            figure.clear()
         (folder / "report.md").write_text(markdown_report(result, "balance.png"),
                                           encoding="utf-8")

@@ -28,15 +28,33 @@ def safe_name(text: str, fallback: str = "report") -> str:
     return slug[:80] or fallback
 
 
+#: files that mark a folder as one qhat wrote (only such folders are replaced by --force)
+REPORT_MARKERS = ("summary.json", "check.json", "report.md", "loci.csv")
+
+
 def check_destination(out: Path, force: bool, option: str = "--out") -> None:
-    """Refuse an existing destination unless forced, and a destination that is a file."""
+    """Refuse a destination that cannot safely become a report folder.
+
+    Refused: a file; an existing folder without ``force``; with ``force``, a folder that
+    is neither empty nor a qhat report; the current folder or one above it; a folder
+    whose parent does not exist.
+    """
+    out = Path(out)
+    resolved = out.resolve()
+    here = Path.cwd().resolve()
+    if resolved == here or resolved in here.parents or out.name in ("", ".", ".."):
+        raise InputError(f"{out} is the current folder or above it; name a new folder",
+                         source=option)
     if out.exists() and not out.is_dir():
         raise InputError(f"{out} exists and is not a folder", source=option)
     if out.exists() and not force:
         raise InputError(f"{out} already exists; use --force to replace it", source=option)
-    parent = out.resolve().parent
-    if not parent.is_dir():
-        raise InputError(f"the folder {parent} does not exist", source=option)
+    if out.exists() and any(out.iterdir()) and not any(
+            (out / marker).exists() for marker in REPORT_MARKERS):
+        raise InputError(f"{out} is not a qhat report folder; refusing to replace it",
+                         source=option)
+    if not resolved.parent.is_dir():
+        raise InputError(f"the folder {resolved.parent} does not exist", source=option)
 
 
 @contextlib.contextmanager
@@ -60,7 +78,12 @@ def atomic_folder(out: Path, force: bool = False) -> Iterator[Path]:
         if out.exists():
             retired = Path(tempfile.mkdtemp(prefix=f".{out.name}.", suffix=".old", dir=parent))
             os.rename(out, retired / "old")
-            os.rename(temporary, out)
+            try:
+                os.rename(temporary, out)
+            except BaseException:
+                os.rename(retired / "old", out)  # put the old report back
+                shutil.rmtree(retired, ignore_errors=True)
+                raise
             shutil.rmtree(retired, ignore_errors=True)
         else:
             os.rename(temporary, out)

@@ -76,8 +76,10 @@ def write_plots(result, folder: pathlib.Path) -> dict[str, str]:
         matplotlib.use("Agg")
     folder = pathlib.Path(folder)
     written = {}
-    for key, figure in make_figures(result).items():
-        figure.savefig(folder / PLOT_FILES[key], dpi=DPI, pil_kwargs={"compress_level": 3})
-        figure.clear()
-        written[key] = PLOT_FILES[key]
+    # titles and labels carry user text: a "$" must not start matplotlib's maths parser
+    with matplotlib.rc_context({"text.parse_math": False}):
+        for key, figure in make_figures(result).items():
+            figure.savefig(folder / PLOT_FILES[key], dpi=DPI, pil_kwargs={"compress_level": 3})
+            figure.clear()
+            written[key] = PLOT_FILES[key]
     return written

@@ -1,0 +1,411 @@
+"""Interruption and output paths of ``qhat estimate`` (issue 7, item 4).
+
+DESIGN.md section 4: reports are written to a temporary folder and renamed into place, so
+an interrupted run leaves nothing half-written; an existing folder is replaced only with
+``--force``; the same seed gives the same summary.json. These tests interrupt real runs
+(SIGINT as from Ctrl-C at a terminal, SIGTERM as from a batch scheduler), interrupt the
+writing phase deterministically in-process, and check that neither a study title nor a
+study file name can make qhat write outside the folder that ``--out`` (or the documented
+default ``reports/<file stem>``) chooses.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import select
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from infer import cli
+from infer.commands.estimate import default_out
+from infer.errors import InputError
+from infer.reporting import folder as folder_module
+from infer.reporting.folder import atomic_folder, safe_name, terminate_as_interrupt
+
+INTERRUPTED = "qhat: interrupted; nothing was written"
+
+#: a few seconds of fitting: one free parameter, a small sampler, a step cap
+FAST = """\
+title = "{title}"
+[parameters]
+mu = {{ prior = "log-uniform", low = 1e-8, high = 1e-3 }}
+s = 1.0
+h = 1.0
+[[observations]]
+kind = "sporadic"
+cases = 15
+births = 182400
+mode = "dominant"
+[sampler]
+seed = 4
+walkers = 8
+ensembles = 2
+max_steps = 300
+"""
+
+#: sampling that lasts well beyond its first progress report (three free parameters on
+#: the mu/(hs) ridge, convergence needs more than twice the first block of 600 steps)
+LONG = """\
+title = "Interrupt test island"
+[parameters]
+mu = { prior = "log-uniform", low = 1e-9, high = 1e-3 }
+s = { prior = "uniform", low = 0.0, high = 1.0 }
+h = { prior = "uniform", low = 0.0, high = 1.0 }
+[[observations]]
+kind = "affected"
+affected = 19
+total = 182400
+mode = "dominant"
+[sampler]
+seed = 4
+walkers = 96
+max_steps = 10000000
+"""
+
+
+def tree(root: Path) -> list[str]:
+    """Every file and folder below root, as sorted relative paths (hidden ones included)."""
+    return sorted(str(p.relative_to(root)) for p in root.rglob("*"))
+
+
+def start(args, cwd, stderr, env=None):
+    return subprocess.Popen([sys.executable, "-m", "infer", *map(str, args)], cwd=cwd,
+                            stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, stderr=stderr,
+                            env=env)
+
+
+def read_until(fd: int, marker: bytes, process, timeout: float = 300.0) -> bytes:
+    """Read a pty until ``marker`` appears (or the process ends, or the timeout)."""
+    seen = b""
+    deadline = time.monotonic() + timeout
+    while marker not in seen and time.monotonic() < deadline and process.poll() is None:
+        ready, _, _ = select.select([fd], [], [], 0.2)
+        if ready:
+            try:
+                seen += os.read(fd, 4096)
+            except OSError:  # EIO: the child closed the terminal
+                break
+    return seen
+
+
+def drain(fd: int) -> bytes:
+    out = b""
+    while True:
+        ready, _, _ = select.select([fd], [], [], 0.5)
+        if not ready:
+            return out
+        try:
+            chunk = os.read(fd, 4096)
+        except OSError:
+            return out
+        if not chunk:
+            return out
+        out += chunk
+
+
+# ---------------------------------------------------------------- real runs, real signals
+
+
+@pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM], ids=["SIGINT", "SIGTERM"])
+def test_signal_at_a_terminal_while_sampling_leaves_nothing(tmp_path, signum):
+    """stderr is a terminal, so qhat shows sampling progress; the signal is sent as soon as
+    the first progress report appears (the sampler is then mid-run). Expected: non-zero
+    exit, the one-line interrupted message, no traceback, no report folder and no
+    ``.report.*.partial`` sibling (the parent folder holds only the study)."""
+    (tmp_path / "study.toml").write_text(LONG)
+    master, slave = os.openpty()
+    try:
+        process = start(["estimate", "study.toml", "--out", "report"], tmp_path, slave)
+        os.close(slave)
+        seen = read_until(master, b"qhat: sampling", process)
+        assert b"qhat: sampling" in seen, seen
+        assert process.poll() is None, "the run ended before it could be interrupted"
+        process.send_signal(signum)
+        process.wait(timeout=120)
+        seen += drain(master)
+    finally:
+        os.close(master)
+        if process.poll() is None:
+            process.kill()
+    text = seen.decode("utf-8", "replace").replace("\r\n", "\n")
+    assert process.returncode == 130, text  # 128 + SIGINT, the CLI's interrupted status
+    assert "Traceback" not in text
+    assert text.endswith(INTERRUPTED + "\n"), text
+    # Progress is redrawn in place with \r; apart from it there is the one message line.
+    # (It currently follows the last progress text on the same line: see
+    # test_interrupted_message_starts_its_own_line_on_a_terminal.)
+    assert text.count(INTERRUPTED) == 1
+    shown = [line for line in text.replace("\r", "\n").split("\n") if line.strip()]
+    for line in shown:
+        assert line == INTERRUPTED or line.startswith("qhat: sampling"), text
+    assert process.stdout.read() == b""
+    assert tree(tmp_path) == ["study.toml"]
+
+
+@pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM], ids=["SIGINT", "SIGTERM"])
+def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
+    """stderr is a pipe (a scheduler's log): no progress is shown, so the run is caught
+    after the default report parent ``reports/`` appears (DESIGN.md section 4: the study
+    has been read; sampling is starting) plus a second. stderr must be exactly the one
+    interrupted line; ``reports/`` holds nothing, not even a hidden temporary folder."""
+    (tmp_path / "study.toml").write_text(LONG)
+    process = start(["estimate", "study.toml"], tmp_path, subprocess.PIPE)
+    try:
+        deadline = time.monotonic() + 300
+        while not (tmp_path / "reports").exists() and time.monotonic() < deadline:
+            assert process.poll() is None, process.stderr.read()
+            time.sleep(0.05)
+        time.sleep(1.0)
+        assert process.poll() is None, "the run ended before it could be interrupted"
+        process.send_signal(signum)
+        stdout, stderr = process.communicate(timeout=120)
+    finally:
+        if process.poll() is None:
+            process.kill()
+    assert process.returncode == 130, stderr
+    assert stderr.decode() == INTERRUPTED + "\n"
+    assert stdout == b""
+    assert tree(tmp_path) == ["reports", "study.toml"]
+
+
+# ---------------------------------------------------------------- the writing phase
+
+
+def test_interrupt_inside_atomic_folder_removes_the_temporary_folder(tmp_path):
+    out = tmp_path / "report"
+    with pytest.raises(KeyboardInterrupt):
+        with atomic_folder(out) as temporary:
+            assert temporary.parent == tmp_path and temporary.name.startswith(".report.")
+            (temporary / "summary.json").write_text("{}")
+            raise KeyboardInterrupt
+    assert tree(tmp_path) == []
+
+
+def test_interrupt_while_replacing_with_force_leaves_the_old_report_untouched(tmp_path):
+    out = tmp_path / "report"
+    out.mkdir()
+    (out / "summary.json").write_bytes(b'{"old": true}\n')
+    with pytest.raises(KeyboardInterrupt):
+        with atomic_folder(out, force=True) as temporary:
+            (temporary / "summary.json").write_text('{"new": true}\n')
+            raise KeyboardInterrupt
+    assert tree(tmp_path) == ["report", "report/summary.json"]
+    assert (out / "summary.json").read_bytes() == b'{"old": true}\n'
+
+
+def test_sigterm_inside_the_block_becomes_an_interrupt_and_cleans_up(tmp_path):
+    """terminate_as_interrupt turns SIGTERM into KeyboardInterrupt (so clean-up runs) and
+    restores the previous handler afterwards."""
+    before = signal.getsignal(signal.SIGTERM)
+    out = tmp_path / "report"
+    with pytest.raises(KeyboardInterrupt):
+        with terminate_as_interrupt(), atomic_folder(out) as temporary:
+            (temporary / "summary.json").write_text("{}")
+            assert signal.getsignal(signal.SIGTERM) not in (signal.SIG_DFL, signal.SIG_IGN)
+            os.kill(os.getpid(), signal.SIGTERM)
+            time.sleep(5)  # the handler raises before this ends
+    assert signal.getsignal(signal.SIGTERM) == before
+    assert tree(tmp_path) == []
+
+
+def test_interrupt_between_the_two_renames_of_a_forced_replacement(tmp_path, monkeypatch):
+    out = tmp_path / "report"
+    out.mkdir()
+    (out / "summary.json").write_bytes(b'{"old": true}\n')
+    real_rename = os.rename
+    calls = []
+
+    def rename(source, destination):
+        calls.append((source, destination))
+        if len(calls) == 2:  # old report moved aside; the new one not yet in place
+            raise KeyboardInterrupt
+        return real_rename(source, destination)
+
+    monkeypatch.setattr(folder_module.os, "rename", rename)
+    with pytest.raises(KeyboardInterrupt):
+        with atomic_folder(out, force=True) as temporary:
+            (temporary / "summary.json").write_text('{"new": true}\n')
+    monkeypatch.undo()
+    # the third rename puts the old report back where it was
+    assert len(calls) == 3 and calls[2][1] == out
+    assert tree(tmp_path) == ["report", "report/summary.json"]
+    assert (out / "summary.json").read_bytes() == b'{"old": true}\n'
+
+
+@pytest.mark.parametrize("name", [".", ".."])
+def test_out_naming_the_current_or_parent_folder_is_refused(tmp_path, monkeypatch, name):
+    """``--out . --force`` must be refused as bad input before anything is created."""
+    work = tmp_path / "a" / "b"
+    work.mkdir(parents=True)
+    monkeypatch.chdir(work)
+    try:
+        with pytest.raises(InputError):
+            with atomic_folder(Path(name), force=True) as temporary:
+                (temporary / "summary.json").write_text("{}")
+    finally:
+        monkeypatch.chdir(tmp_path)
+        leftovers = tree(tmp_path)
+    assert leftovers == ["a", "a/b"]
+
+
+def write_study(path: Path, title: str = "Fast test island") -> Path:
+    path.write_text(FAST.format(title=title.replace("\\", "\\\\").replace('"', '\\"')),
+                    encoding="utf-8")
+    return path
+
+
+def plots_that_get_interrupted(how: str):
+    """A stand-in for write_plots: a plot file half-written, then SIGTERM or Ctrl-C."""
+
+    def write_plots(result, folder):
+        (Path(folder) / "marginals.png").write_bytes(b"\x89PNG half")
+        if how == "SIGTERM":
+            handler = signal.getsignal(signal.SIGTERM)
+            # never send SIGTERM without a handler: it would end the test run itself
+            assert handler not in (signal.SIG_DFL, signal.SIG_IGN, None)
+            os.kill(os.getpid(), signal.SIGTERM)
+            time.sleep(5)
+        raise KeyboardInterrupt
+
+    return write_plots
+
+
+@pytest.mark.parametrize("how", ["SIGINT", "SIGTERM"])
+def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how):
+    """The whole command in-process; the plot writer is interrupted after summary.json,
+    timing.json and posterior.nc are in the temporary folder. A new --out is not created;
+    an existing report replaced with --force stays byte for byte as it was."""
+    import infer.reporting.plots
+
+    study = write_study(tmp_path / "study.toml")
+    (tmp_path / "kept").mkdir()  # an earlier report
+    for name in ("summary.json", "report.md", "marginals.png"):
+        (tmp_path / "kept" / name).write_bytes(f"earlier {name}\n".encode())
+    kept = {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()}
+    monkeypatch.setattr(infer.reporting.plots, "write_plots", plots_that_get_interrupted(how))
+    status = cli.main(["estimate", str(study), "--out", str(tmp_path / "new"), "--quiet"])
+    assert status == 130
+    assert capsys.readouterr().err == INTERRUPTED + "\n"
+    status = cli.main(["estimate", str(study), "--out", str(tmp_path / "kept"), "--force",
+                       "--quiet"])
+    assert status == 130
+    assert capsys.readouterr().err == INTERRUPTED + "\n"
+    assert sorted(p for p in tree(tmp_path) if "/" not in p) == ["kept", "study.toml"]
+    assert {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()} == kept
+
+
+class FakeTerminal(io.StringIO):
+    def isatty(self):
+        return True
+
+
+def test_interrupted_message_starts_its_own_line_on_a_terminal(tmp_path, monkeypatch):
+    import infer.estimation
+
+    def estimate(study, seed=None, progress=None, **_):
+        progress(600, 40_000)
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(infer.estimation, "estimate", estimate)
+    terminal = FakeTerminal()
+    monkeypatch.setattr(sys, "stderr", terminal)
+    study = write_study(tmp_path / "study.toml")
+    assert cli.main(["estimate", str(study), "--out", str(tmp_path / "report")]) == 130
+    lines = terminal.getvalue().replace("\r", "\n").splitlines()
+    assert INTERRUPTED in lines, terminal.getvalue()
+
+
+# ---------------------------------------------------------------- same seed, same bytes; paths
+
+
+@pytest.fixture(scope="module")
+def two_runs(tmp_path_factory):
+    """The same study (title "../../x") run twice in fresh processes with different hash
+    seeds: once into --out report, once into the default folder."""
+    root = tmp_path_factory.mktemp("runs")
+    runs = {}
+    for name, extra, hash_seed in (("a", ["--out", "report"], "0"), ("b", [], "12345")):
+        work = root / name / "deep" / "work"  # room for "../../x" to land, were it used
+        work.mkdir(parents=True)
+        write_study(work / "study.toml", title="../../x")
+        env = {**os.environ, "PYTHONHASHSEED": hash_seed}
+        done = subprocess.run([sys.executable, "-m", "infer", "estimate", "study.toml",
+                               *extra, "--quiet"], cwd=work, env=env, capture_output=True,
+                              timeout=600)
+        assert done.returncode == 0, done.stderr.decode()
+        runs[name] = work
+    return root, runs
+
+
+@pytest.mark.slow  # two fresh fits with plots: > 10 s on 2 loaded cores
+def test_same_seed_gives_byte_identical_summary(two_runs):
+    """DESIGN.md section 4/5: the summary depends on the study and the seed alone (wall
+    times go to timing.json), whatever the process, hash seed or output folder."""
+    _, runs = two_runs
+    first = (runs["a"] / "report" / "summary.json").read_bytes()
+    second = (runs["b"] / "reports" / "study" / "summary.json").read_bytes()
+    assert first == second
+    assert b'"title": "../../x"' in first
+
+
+@pytest.mark.slow  # shares the two runs above
+def test_title_does_not_choose_where_files_go(two_runs):
+    """Every file of both runs is inside the chosen folder; nothing anywhere else in the
+    temporary tree (``x`` two levels up would be the title's path)."""
+    root, runs = two_runs
+    names = ("summary.json", "report.md", "posterior.nc", "timing.json")
+    for name, report in (("a", "report"), ("b", "reports/study")):
+        files = tree(root / name)
+        outside = [f for f in files
+                   if not (f.startswith(f"deep/work/{report}/") or f in
+                           {"deep", "deep/work", "deep/work/study.toml", f"deep/work/{report}",
+                            "deep/work/reports"})]
+        assert outside == [], outside
+        assert all(f"deep/work/{report}/{n}" in files for n in names)
+    assert sorted(p.name for p in root.iterdir()) == ["a", "b"]
+
+
+def test_absolute_title_and_odd_study_names_stay_under_reports(tmp_path, monkeypatch, capsys):
+    """A title "/etc/passwd" and a study file named "..toml" write reports/study/ only."""
+    passwd = Path("/etc/passwd")
+    before = passwd.stat().st_mtime_ns if passwd.exists() else None
+    monkeypatch.chdir(tmp_path)
+    write_study(tmp_path / "..toml", title="/etc/passwd")
+    assert cli.main(["estimate", "..toml", "--quiet"]) == 0
+    capsys.readouterr()
+    files = tree(tmp_path)
+    assert all(f in ("..toml", "reports", "reports/study") or f.startswith("reports/study/")
+               for f in files), files
+    assert "reports/study/summary.json" in files
+    if before is not None:
+        assert passwd.stat().st_mtime_ns == before
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.text(max_size=60))
+def test_default_folder_is_always_one_plain_name_under_reports(stem):
+    """default_out(any path) is reports/<name> with a name that is not hidden, not '.' or
+    '..', has no separator, and at most 80 characters (safe_name's contract)."""
+    out = default_out(stem + ".toml")
+    assert out.parent == Path("reports")
+    name = out.name
+    assert name and name not in (".", "..") and not name.startswith((".", "-"))
+    assert "/" not in name and "\\" not in name and "\x00" not in name and len(name) <= 80
+    assert all(c.isalnum() or c in "-_" for c in name)
+    assert safe_name(stem) == safe_name(safe_name(stem))  # idempotent
+
+
+def test_title_with_dollar_signs_is_plain_text(tmp_path, monkeypatch, capsys):
+    """A title is free text (DESIGN.md section 3): "$x^$" is written, not typeset."""
+    monkeypatch.chdir(tmp_path)
+    write_study(tmp_path / "study.toml", title="Cost $x^$ per test")
+    assert cli.main(["estimate", "study.toml", "--out", "report", "--quiet"]) == 0
+    assert "Cost $x^$ per test" in (tmp_path / "report" / "report.md").read_text()
