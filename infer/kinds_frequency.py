@@ -82,6 +82,10 @@ class AlleleCount(Observation):
     def _given_frequency(self, x, params):
         return log_binomial(self.observed, self.sampled, x)
 
+    def binomial_form(self):
+        """Already a binomial sample of allele copies."""
+        return (self.observed, self.sampled, 0.0) if self.inheritance == "autosomal" else None
+
     def statistic(self):
         """The observed allele copies."""
         return float(self.observed)
@@ -153,6 +157,19 @@ class GenotypeCount(Observation):
 
     def _given_frequency(self, x, params):
         return self._log_multinomial(balance.genotype_frequencies(x, params["F"]))
+
+    def binomial_form(self):
+        """With F = 0 the multinomial is N!/(AA! Aa! aa!) 2^Aa x^k (1-x)^(2N-k), k = Aa + 2aa
+        (Hardy-Weinberg): a binomial in the 2N allele copies times a constant."""
+        if self.inheritance != "autosomal":
+            return None
+        k, n = self.Aa + 2 * self.aa, 2 * self.total
+        constant = (special.gammaln(self.total + 1.0)
+                    - sum(special.gammaln(c + 1.0) for c in (self.AA, self.Aa, self.aa))
+                    + self.Aa * np.log(2.0)
+                    - (special.gammaln(n + 1.0) - special.gammaln(k + 1.0)
+                       - special.gammaln(n - k + 1.0)))
+        return k, n, float(constant)
 
     def statistic(self):
         """The observed allele copies, Aa + 2·aa."""

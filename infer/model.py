@@ -102,12 +102,16 @@ class Model:
             if self.drift and observation.depends_on_frequency:
                 from infer import drift
 
-                def log_p(x, observation=observation):
-                    return observation.log_likelihood_given_frequency(x, params)
+                rates = (params["Ne"], params["mu"], params["s"], params["h"], params["nu"])
+                form = observation.binomial_form()
+                if form is not None:
+                    k, n, constant = form
+                    ll = constant + drift.log_binomial_probability(k, n, *rates)
+                else:
+                    def log_p(x, observation=observation):
+                        return observation.log_likelihood_given_frequency(x, params)
 
-                ll = drift.log_expectation(
-                    log_p, params["Ne"], params["mu"], params["s"], params["h"], params["nu"]
-                )
+                    ll = drift.log_expectation(log_p, *rates)
             else:
                 ll = observation.log_likelihood(state)
             columns.append(np.asarray(ll, dtype=float))

@@ -161,6 +161,12 @@ class Observation:
     def _given_frequency(self, x, params):
         raise NotImplementedError
 
+    def binomial_form(self) -> tuple[int, int, float] | None:
+        """``(k, n, c)`` when log P(data | x) = c + log[C(n, k) x^k (1 - x)^(n - k)] for
+        an autosomal locus with F = 0 (the drift model then uses the fast sample
+        probability of :func:`infer.drift.log_binomial_probability`); otherwise None."""
+        return None
+
     def statistic(self) -> float:
         """The observed number compared in predictive checks (``statistic_name``)."""
         raise NotImplementedError

@@ -34,3 +34,25 @@ def test_draws_follow_the_density():
     rng = np.random.default_rng(5)
     x = drift.sample_stationary(rng, np.full(5000, 50.0), 1e-3, 0.0, 0.5, 1e-3)
     assert stats.kstest(x, stats.beta(0.2, 0.2).cdf).pvalue > 0.001
+
+
+@pytest.mark.parametrize("kind", ["genotype-count", "allele-count"])
+def test_binomial_fast_path_equals_the_general_integral(kind):
+    # Derived (Hardy-Weinberg): with F = 0 the genotype multinomial is a binomial in the
+    # allele copies times a constant, so the fast sample probability must equal the
+    # general quadrature of P(data | x) over Wright's density.
+    from infer.observations import parse_observation
+
+    table = ({"kind": kind, "AA": 112, "Aa": 7, "aa": 1} if kind == "genotype-count"
+             else {"kind": kind, "observed": 9, "sampled": 240})
+    obs = parse_observation(table, field="observations[1]", inheritance="autosomal")
+    n_rows = 4
+    params = {"Ne": np.full(n_rows, 40.0), "mu": np.geomspace(1e-6, 1e-4, n_rows),
+              "s": np.array([0.01, 0.1, 0.5, 1.0]), "h": np.array([0.0, 0.2, 0.5, 0.0]),
+              "nu": np.full(n_rows, 1e-7), "F": np.zeros(n_rows), "alpha": np.ones(n_rows)}
+    rates = [params[k] for k in ("Ne", "mu", "s", "h", "nu")]
+    k, n, constant = obs.binomial_form()
+    fast = constant + drift.log_binomial_probability(k, n, *rates)
+    general = drift.log_expectation(lambda x: obs.log_likelihood_given_frequency(x, params),
+                                    *rates)
+    assert fast == pytest.approx(general, rel=1e-7)
