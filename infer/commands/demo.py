@@ -52,7 +52,7 @@ def run(args) -> int:
     for path in jobs["batch"]:
         target = out / safe_name(path.stem)
         print(f"== qhat batch {path} --out {target}", flush=True)
-        argv = ["batch", str(path), "--out", str(target), "--force"]
+        argv = ["batch", str(path), "--out", str(target), "--force", "--prior", "empirical"]
         failures += qhat(argv + (["--quiet"] if args.quiet else [])) != 0
     print(f"demo reports are in {out}/ (research estimates, not clinical results)")
     if failures:
