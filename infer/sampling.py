@@ -59,7 +59,7 @@ class SamplerSettings:
     target_ess: float = 1000.0
     max_r_hat: float = 1.01
     tau_multiple: float = 50.0
-    first_block: int = 600
+    first_block: int = 500
     max_steps: int = 40_000
     burn_in_taus: float = 3.0
 
