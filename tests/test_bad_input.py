@@ -170,3 +170,28 @@ def test_bad_claim(tmp_path, capsys, case, old, new, needle):
     path.write_text(CLAIM.replace(old, new, 1), encoding="utf-8")
     status, err = _run(tmp_path, ["check", str(path)], capsys)
     _assert_one_line(status, err, "claim.toml", needle)
+
+
+# Batch CSVs: the rest of the catalogue (empty file, missing column, text, negative,
+# above total, duplicated locus, NaN, half an interval, short row, fractional count,
+# mu above 1, header only) is in tests/test_batch.py.
+BATCH_HEADER = "locus,observed,sampled,mu,mu_lower,mu_upper\n"
+BATCH_GOOD = "GENE0001,3,1000,1e-6,5e-7,2e-6\n"
+
+
+@pytest.mark.parametrize("case,content,needle", [
+    ("not UTF-8", (BATCH_HEADER + BATCH_GOOD + "G\u00e9NE2,1,1000,1e-6,,\n").encode("latin-1"),
+     "UTF-8"),
+    ("gigantic count", (BATCH_HEADER + BATCH_GOOD + "GENE0002,1e400,1000,1e-6,,\n").encode(),
+     "line 3, column observed"),
+    ("interval not around mu", (BATCH_HEADER + BATCH_GOOD
+                                + "GENE0002,1,1000,1e-6,2e-6,3e-6\n").encode(), "line 3"),
+    ("zero alleles sampled", (BATCH_HEADER + BATCH_GOOD + "GENE0002,0,0,1e-6,,\n").encode(),
+     "line 3, column sampled"),
+], ids=lambda v: v if isinstance(v, str) and len(v) < 30 else "")
+def test_bad_batch_file(tmp_path, capsys, case, content, needle):
+    path = tmp_path / "loci.csv"
+    path.write_bytes(content)
+    status, err = _run(tmp_path, ["batch", str(path), "--out", str(tmp_path / "out")], capsys)
+    _assert_one_line(status, err, "loci.csv")
+    assert needle.lower() in err.lower(), err
