@@ -1,6 +1,8 @@
-"""Simulation-based calibration (Talts, Betancourt, Simpson, Vehtari & Gelman 2018,
-arXiv:1804.06788): draw parameters from the prior, simulate data of the study's shape,
-fit, and record where the truth falls in its posterior.
+"""Simulation-based calibration: the rank of the truth among posterior draws.
+
+Talts, Betancourt, Simpson, Vehtari & Gelman (2018), arXiv:1804.06788: draw parameters
+from the prior, simulate data of the study's shape, fit, and record where the truth
+falls in its posterior.
 
 For a correct posterior the rank of the truth among posterior draws — equivalently the
 posterior distribution function at the truth, u = P(theta <= theta_true | data) — is

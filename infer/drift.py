@@ -382,8 +382,10 @@ def stationary_quantile(p, Ne, mu, s, h, nu):
 
 
 def sample_stationary(rng, Ne, mu, s, h, nu):
-    """One draw of the allele frequency from Wright's density per parameter row
-    (inverse distribution function of a uniform draw from ``rng``)."""
+    """One draw of the allele frequency from Wright's density per parameter row.
+
+    The inverse distribution function of a uniform draw from ``rng``.
+    """
     shape = np.broadcast_shapes(*(np.shape(v) for v in (Ne, mu, s, h, nu)))
     u = rng.uniform(np.finfo(float).tiny, 1.0, size=shape)
     return stationary_quantile(u, Ne, mu, s, h, nu)

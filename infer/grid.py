@@ -120,7 +120,8 @@ def grid_posterior(model, interval: float = 0.95, points: int | None = None) -> 
         other = tuple(k for k in range(ndim) if k != j)
         marginal_z = weight.sum(axis=other) if other else weight
         z = axes[j]
-        cdf = np.concatenate([[0.0], np.cumsum((marginal_z[1:] + marginal_z[:-1]) / 2 * np.diff(z))])
+        steps = (marginal_z[1:] + marginal_z[:-1]) / 2 * np.diff(z)
+        cdf = np.concatenate([[0.0], np.cumsum(steps)])
         total = cdf[-1]
         cdf /= total
         marginal_z = marginal_z / total

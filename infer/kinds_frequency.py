@@ -159,8 +159,11 @@ class GenotypeCount(Observation):
         return self._log_multinomial(balance.genotype_frequencies(x, params["F"]))
 
     def binomial_form(self):
-        """With F = 0 the multinomial is N!/(AA! Aa! aa!) 2^Aa x^k (1-x)^(2N-k), k = Aa + 2aa
-        (Hardy-Weinberg): a binomial in the 2N allele copies times a constant."""
+        """A binomial in the 2N allele copies times a constant, when F = 0.
+
+        Under Hardy-Weinberg the multinomial is N!/(AA! Aa! aa!) 2^Aa x^k (1-x)^(2N-k)
+        with k = Aa + 2aa.
+        """
         if self.inheritance != "autosomal":
             return None
         k, n = self.Aa + 2 * self.aa, 2 * self.total

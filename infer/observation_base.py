@@ -162,9 +162,12 @@ class Observation:
         raise NotImplementedError
 
     def binomial_form(self) -> tuple[int, int, float] | None:
-        """``(k, n, c)`` when log P(data | x) = c + log[C(n, k) x^k (1 - x)^(n - k)] for
-        an autosomal locus with F = 0 (the drift model then uses the fast sample
-        probability of :func:`infer.drift.log_binomial_probability`); otherwise None."""
+        """``(k, n, c)`` when P(data | x) is binomial in x, else None.
+
+        That is, log P(data | x) = c + log[C(n, k) x^k (1 - x)^(n - k)] for an autosomal
+        locus with F = 0; the drift model then uses the fast sample probability of
+        :func:`infer.drift.log_binomial_probability`.
+        """
         return None
 
     def statistic(self) -> float:

@@ -252,7 +252,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
                               "no_equilibrium_share": float(np.mean(~np.isfinite(v)))}
 
     replicated, predictive = [], []
-    for i, obs in enumerate(model.observations):
+    for obs in model.observations:
         with np.errstate(all="ignore"):
             at = predictive_state if obs.depends_on_frequency else state
             rep = np.asarray(obs.simulate(at, rng), dtype=float)

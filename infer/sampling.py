@@ -188,11 +188,12 @@ def run_to_convergence(
         # emcee reads column 0 as the log probability and the rest as blobs.
         return np.column_stack([lp, extra]) if extra.shape[1] else lp
 
-    def advance(state, steps_):
-        for state in sampler.sample(state, iterations=steps_, store=True):
+    def advance(start, steps_):
+        current = start
+        for current in sampler.sample(start, iterations=steps_, store=True):  # noqa: B007
             if interrupted:
                 raise KeyboardInterrupt
-        return state
+        return current
 
     groups = settings.ensembles
     sampler = _seeded_sampler(emcee, walkers * groups, ndim, wrapped, rng, groups)
