@@ -31,14 +31,12 @@ def deterministic_twin(study):
     return dataclasses.replace(study, model="deterministic", parameters=parameters)
 
 
-def _posterior_quantiles(result_posterior: dict, names, interval) -> dict:
-    tail = (1.0 - interval) / 2.0
-    out = {}
-    for name in names:
-        flat = np.asarray(result_posterior[name]).ravel()
-        med, lo, hi = np.quantile(flat, [0.5, tail, 1.0 - tail])
-        out[name] = {"median": float(med), "lower": float(lo), "upper": float(hi)}
-    return out
+def _posterior_quantiles(posterior: dict, names, interval) -> dict:
+    from infer.results import central_quantiles
+
+    return {name: dict(zip(("median", "lower", "upper"),
+                           central_quantiles(posterior[name], interval), strict=True))
+            for name in names}
 
 
 def _deterministic_quantiles(twin, rng) -> dict:

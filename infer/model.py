@@ -46,6 +46,9 @@ class Model:
         self.observations = list(study.observations)
         self.inheritance = study.inheritance
         self.drift = study.model == "drift"
+        missing = [n for n in PARAMETERS if n not in self.fixed and n not in self.free]
+        if missing:
+            raise KeyError(f"parameters without a value: {missing}")
 
     @property
     def ndim(self) -> int:
@@ -76,9 +79,6 @@ class Model:
         params = {name: np.full(n, value) for name, value in self.fixed.items()}
         for name, value in free_values.items():
             params[name] = np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
-        missing = [name for name in PARAMETERS if name not in params and name not in self.free]
-        if missing:
-            raise KeyError(f"parameters without a value: {missing}")
         return params
 
     # -- densities ---------------------------------------------------------------------

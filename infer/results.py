@@ -18,6 +18,7 @@ __all__ = [
     "EstimateResult",
     "summarise",
     "two_sided_p_value",
+    "central_quantiles",
     "contraction",
     "identifiability",
 ]
@@ -72,7 +73,8 @@ def contraction(posterior_scaled: np.ndarray, prior_scaled: np.ndarray) -> float
     return float(1.0 - np.std(posterior_scaled) / prior_sd)
 
 
-def _quantiles(draws: np.ndarray, interval: float) -> tuple[float, float, float]:
+def central_quantiles(draws: np.ndarray, interval: float) -> tuple[float, float, float]:
+    """Median and central ``interval`` of the finite draws: (median, lower, upper)."""
     flat = np.asarray(draws, dtype=float).ravel()
     flat = flat[np.isfinite(flat)]
     if flat.size == 0:
@@ -206,7 +208,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     parameters = {}
     for j, name in enumerate(model.free):
         p = study.parameters[name]
-        med, lo, hi = _quantiles(posterior[name], interval)
+        med, lo, hi = central_quantiles(posterior[name], interval)
         plo, phi = (float(v) for v in p.quantile(np.array([(1 - interval) / 2,
                                                            1 - (1 - interval) / 2])))
         parameters[name] = {
@@ -247,7 +249,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     derived = {k: v[None, :] for k, v in derived_flat.items()}
     derived_summary = {}
     for k, v in derived.items():
-        med, lo, hi = _quantiles(v, interval)
+        med, lo, hi = central_quantiles(v, interval)
         derived_summary[k] = {"median": med, "lower": lo, "upper": hi,
                               "no_equilibrium_share": float(np.mean(~np.isfinite(v)))}
 
