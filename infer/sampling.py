@@ -98,13 +98,13 @@ class SamplingRun:
     messages: list[str] = field(default_factory=list)
 
 
-def _seeded_sampler(emcee, nwalkers, ndim, log_prob, rng, groups):
-    from infer.moves import GroupedMove
+def _seeded_sampler(emcee, nwalkers, ndim, log_prob, evaluate, rng, groups):
+    from infer.moves import GroupedDifferentialEvolution, GroupedStretch
 
     # Differential-evolution moves (ter Braak 2006, Statistics and Computing 16:239)
     # mix faster than the default stretch move on correlated balance posteriors.
-    moves = [(GroupedMove(emcee.moves.DEMove(), groups), 0.8),
-             (GroupedMove(emcee.moves.StretchMove(), groups), 0.2)]
+    moves = [(GroupedDifferentialEvolution(groups, evaluate), 0.8),
+             (GroupedStretch(groups, evaluate), 0.2)]
     sampler = emcee.EnsembleSampler(nwalkers, ndim, log_prob, vectorize=True, moves=moves)
     # emcee keeps a legacy RandomState and ignores a Generator (LIBRARIES.md).
     sampler._random = np.random.RandomState(np.random.MT19937(int(rng.integers(2**32))))
@@ -160,45 +160,37 @@ def run_to_convergence(
     -------
     SamplingRun
     """
-    import emcee
+    from infer.emcee_loader import load_emcee
 
+    emcee = load_emcee()
     walkers = max(settings.walkers, 2 * ndim + 2)
     walkers += walkers % 2
     evaluations = 0
 
-    def vectorised(points: np.ndarray):
+    def evaluate(points: np.ndarray):
+        """(log posterior, blob columns or None) of an (n, ndim) array, -inf where invalid."""
         nonlocal evaluations
         evaluations += len(points)
         out = np.asarray(log_prob(points), dtype=float)
         lp = np.where(np.isfinite(out[:, 0]), out[:, 0], -np.inf)
-        return lp, out[:, 1:]
+        return lp, (out[:, 1:] if out.shape[1] > 1 else None)
 
-    interrupted = []
-    width = []
-
-    def wrapped(points):
-        # emcee prints a traceback for any exception raised in here, so an interrupt is
-        # noted, the step finished with -inf, and the interrupt raised again outside.
-        try:
-            lp, extra = vectorised(points)
-        except KeyboardInterrupt:
-            interrupted.append(True)
-            lp = np.full(len(points), -np.inf)
-            extra = np.zeros((len(points), width[0]))
-        # emcee reads column 0 as the log probability and the rest as blobs.
-        return np.column_stack([lp, extra]) if extra.shape[1] else lp
+    def for_emcee(points):
+        # emcee reads column 0 as the log probability and the rest as blobs; the moves
+        # call ``evaluate`` directly, so emcee calls this only if it lacks a state.
+        lp, extra = evaluate(points)
+        return lp if extra is None else np.column_stack([lp, extra])
 
     def advance(start, steps_):
         current = start
         for current in sampler.sample(start, iterations=steps_, store=True):  # noqa: B007
-            if interrupted:
-                raise KeyboardInterrupt
+            pass
         return current
 
     groups = settings.ensembles
-    sampler = _seeded_sampler(emcee, walkers * groups, ndim, wrapped, rng, groups)
-    state = np.concatenate([initial(rng, walkers) for _ in range(groups)])
-    width.append(vectorised(state)[1].shape[1])  # blob columns, known before emcee runs
+    sampler = _seeded_sampler(emcee, walkers * groups, ndim, for_emcee, evaluate, rng, groups)
+    coords = np.concatenate([initial(rng, walkers) for _ in range(groups)])
+    state = emcee.State(coords, *evaluate(coords))
 
     def by_ensemble(values: np.ndarray) -> np.ndarray:
         """(steps, groups * walkers, ...) -> (groups, steps, walkers, ...)."""

@@ -1,0 +1,117 @@
+"""posterior.nc written with h5netcdf reads back as the DataTree arviz itself builds.
+
+The reference is independent of the writer: ``arviz_base.from_dict`` (arviz 1.x) builds
+the tree from the same arrays, and xarray's own netCDF reader opens our file. Every
+group, variable, dimension and coordinate must agree, and arviz's summary must give the
+same numbers from either tree.
+"""
+
+from __future__ import annotations
+
+import functools
+import tomllib
+
+import numpy as np
+import pytest
+
+from infer.estimation import estimate
+from infer.reporting.netcdf import CAUTION_ATTRIBUTE, to_datatree, write_netcdf
+from infer.sampling import SamplerSettings
+from infer.study import parse_study
+
+xr = pytest.importorskip("xarray")
+
+STUDY = """
+title = "Test: a dominant disorder in an invented registry"
+inheritance = "autosomal"
+[parameters]
+mu = { prior = "log-uniform", low = 1e-8, high = 1e-3 }
+s = { prior = "uniform", low = 0.0, high = 1.0 }
+h = 1.0
+[[observations]]
+label = "births"
+kind = "affected"
+affected = 19
+total = 182_400
+mode = "dominant"
+[[observations]]
+label = "children of affected adults"
+kind = "fertility"
+affected_people = 64
+affected_children = 27
+reference_people = 310
+reference_children = 655
+mode = "dominant"
+"""
+
+
+@functools.cache
+def _written(tmp_root: str):
+    study = parse_study(tomllib.loads(STUDY), source="test.toml")
+    result, _ = estimate(study, seed=5, settings=SamplerSettings(target_ess=200), grid=False)
+    path = f"{tmp_root}/posterior.nc"
+    write_netcdf(result, path, result.log_prob)
+    return result, path
+
+
+@pytest.fixture(scope="module")
+def written(tmp_path_factory):
+    return _written(str(tmp_path_factory.mktemp("nc")))
+
+
+def test_every_group_equals_the_arviz_datatree(written):
+    result, path = written
+    reference = to_datatree(result, result.log_prob)
+    ours = xr.open_datatree(path, engine="h5netcdf")
+    assert set(ours.children) == set(reference.children) == {
+        "posterior", "prior", "log_likelihood", "posterior_predictive", "observed_data",
+        "sample_stats"}
+    for group in reference.children:
+        # values, dims and coordinates; attributes differ only in creation time and library
+        xr.testing.assert_equal(ours[group].to_dataset(), reference[group].to_dataset())
+        assert list(ours[group].attrs["sample_dims"]) == list(
+            reference[group].attrs["sample_dims"])
+    ours.close()
+
+
+def test_attributes_carry_labels_and_caution(written):
+    result, path = written
+    tree = xr.open_datatree(path, engine="h5netcdf")
+    assert tree.attrs["caution"] == CAUTION_ATTRIBUTE
+    assert tree.attrs["title"] == result.study.title
+    assert tree["observed_data"].attrs["obs1"] == "affected: births"
+    assert tree["observed_data"].attrs["obs2"] == "fertility: children of affected adults"
+    tree.close()
+
+
+def test_arviz_summary_is_the_same_from_either_tree(written):
+    az = pytest.importorskip("arviz")
+    result, path = written
+    tree = xr.open_datatree(path, engine="h5netcdf")
+    ours = az.summary(tree, var_names=["mu", "s"], ci_kind="eti", ci_prob=0.95)
+    reference = az.summary(to_datatree(result, result.log_prob), var_names=["mu", "s"],
+                           ci_kind="eti", ci_prob=0.95)
+    np.testing.assert_array_equal(ours.to_numpy(), reference.to_numpy())
+    tree.close()
+
+
+def test_writing_does_not_import_arviz_or_xarray(tmp_path):
+    """The estimate command must not pay for arviz/xarray imports (issue acceptance)."""
+    import subprocess
+    import sys
+
+    code = (
+        "import sys\n"
+        "import tomllib\n"
+        "from infer.study import parse_study\n"
+        "from infer.estimation import estimate\n"
+        "from infer.sampling import SamplerSettings\n"
+        "from infer.reporting.netcdf import write_netcdf\n"
+        f"study = parse_study(tomllib.loads({STUDY!r}), source='t.toml')\n"
+        "r, _ = estimate(study, seed=1, settings=SamplerSettings(target_ess=100), grid=False)\n"
+        f"write_netcdf(r, {str(tmp_path / 'p.nc')!r}, r.log_prob)\n"
+        "print(sorted(m for m in ('arviz', 'arviz_base', 'xarray', 'dask') if m in sys.modules))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          check=True)
+    assert done.stdout.strip() == "[]"
