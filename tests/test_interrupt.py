@@ -24,6 +24,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+import infer.reporting.plot_process
 from infer import cli
 from infer.commands.estimate import default_out
 from infer.errors import InputError
@@ -278,13 +279,35 @@ def plots_that_get_interrupted(how: str):
     return write_plots
 
 
+def plot_process_that_gets_interrupted(how: str):
+    """A stand-in for PlotProcess.write: the child draws every plot into the temporary
+    folder, then the parent is interrupted before it writes report.md."""
+    interrupt = plots_that_get_interrupted(how)
+    real_write = infer.reporting.plot_process.PlotProcess.write
+
+    def write(self, result, folder):
+        assert real_write(self, result, folder) is not None  # the child really drew them
+        return interrupt(result, folder)
+
+    return write
+
+
+@pytest.mark.parametrize("where", ["this process", "plot process"])
 @pytest.mark.parametrize("how", ["SIGINT", "SIGTERM"])
-def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how):
-    """The whole command in-process; the plot writer is interrupted after summary.json,
-    timing.json and posterior.nc are in the temporary folder. A new --out is not created;
-    an existing report replaced with --force stays byte for byte as it was."""
+def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how, where):
+    """The whole command in-process; the plots (drawn here, or by the plot process) are
+    interrupted after summary.json and posterior.nc are in the temporary folder. A new
+    --out is not created; an existing report replaced with --force stays byte for byte as
+    it was; no plot process is left running."""
     import infer.reporting.plots
 
+    if where == "plot process":
+        monkeypatch.setattr(infer.reporting.plot_process.PlotProcess, "write",
+                            plot_process_that_gets_interrupted(how))
+    else:
+        monkeypatch.setattr(infer.reporting.plot_process.PlotProcess, "write",
+                            lambda self, result, folder: None)  # the child "failed"
+    children_before = set(child_processes())
     study = write_study(tmp_path / "study.toml")
     (tmp_path / "kept").mkdir()  # an earlier report
     for name in ("summary.json", "report.md", "marginals.png"):
@@ -300,6 +323,21 @@ def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how):
     assert capsys.readouterr().err == INTERRUPTED + "\n"
     assert sorted(p for p in tree(tmp_path) if "/" not in p) == ["kept", "study.toml"]
     assert {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()} == kept
+    assert set(child_processes()) <= children_before
+
+
+def child_processes() -> list[int]:
+    """Process ids of this process's running children (Linux /proc)."""
+    me = str(os.getpid())
+    found = []
+    for stat in Path("/proc").glob("[0-9]*/stat"):
+        try:
+            fields = stat.read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        if fields[1] == me and fields[0] != "Z":
+            found.append(int(stat.parent.name))
+    return found
 
 
 class FakeTerminal(io.StringIO):

@@ -40,25 +40,14 @@ def default_out(study_path: str) -> Path:
 def run(args) -> int:
     """Run ``qhat estimate``."""
     from infer.errors import InputError
-    from infer.reporting.folder import check_destination, terminate_as_interrupt
-    from infer.study import load_study
+    from infer.reporting.folder import terminate_as_interrupt
+    from infer.reporting.plot_process import PlotProcess
 
     if args.seed is not None and args.seed < 0:
         raise InputError(f"{args.seed} is negative", source="--seed")
-    study = load_study(args.study)
-    out = Path(args.out) if args.out else default_out(args.study)
-    if not args.out:
-        out.parent.mkdir(exist_ok=True)
-    check_destination(out, args.force)
-    show = progress_printer(args.quiet)
-    with terminate_as_interrupt():
-        from infer.estimation import estimate
-        from infer.reporting.report import write_report
-
-        result, timing = estimate(study, seed=args.seed, progress=show)
-        if show:
-            print(file=sys.stderr)
-        write_report(result, out, force=args.force, timing=timing)
+    # matplotlib is imported in a second process while this one reads the study and samples
+    with terminate_as_interrupt(), PlotProcess() as plotter:
+        result, out = _estimate_into_folder(args, plotter)
     if args.json:
         from infer.reporting.jsonout import dumps
 
@@ -68,3 +57,24 @@ def run(args) -> int:
 
         print(terminal_summary(result, out))
     return 0
+
+
+def _estimate_into_folder(args, plotter):
+    """Read and check the study and the destination, sample, write the report folder."""
+    from infer.reporting.folder import check_destination
+    from infer.study import load_study
+
+    study = load_study(args.study)
+    out = Path(args.out) if args.out else default_out(args.study)
+    if not args.out:
+        out.parent.mkdir(exist_ok=True)
+    check_destination(out, args.force)
+    show = progress_printer(args.quiet)
+    from infer.estimation import estimate
+    from infer.reporting.report import write_report
+
+    result, timing = estimate(study, seed=args.seed, progress=show)
+    if show:
+        print(file=sys.stderr)
+    write_report(result, out, force=args.force, timing=timing, plotter=plotter)
+    return result, out

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import time
 from pathlib import Path
 
 from infer.reporting.folder import atomic_folder
@@ -11,7 +12,8 @@ from infer.reporting.markdown import report_markdown
 __all__ = ["write_report"]
 
 
-def write_report(result, out: Path, force: bool = False, timing: dict | None = None) -> Path:
+def write_report(result, out: Path, force: bool = False, timing: dict | None = None,
+                 plotter=None) -> Path:
     """Write summary.json, report.md, posterior.nc and the plots into ``out`` atomically.
 
     Parameters
@@ -22,17 +24,29 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
     timing : dict, optional
         Wall times, written to ``timing.json`` and the report (not to summary.json, which
         depends on the seed alone).
+    plotter : infer.reporting.plot_process.PlotProcess, optional
+        A child process, started earlier, that draws the plots while this process writes
+        the rest; without one (or if it fails) the plots are drawn here.
     """
     from infer.reporting.netcdf import write_netcdf
-    from infer.reporting.plots import write_plots
 
     out = Path(out)
     with atomic_folder(out, force=force) as folder:
         (folder / "summary.json").write_text(dumps(result.summary), encoding="utf-8")
-        if timing is not None:
-            (folder / "timing.json").write_text(dumps(timing), encoding="utf-8")
         write_netcdf(result, folder / "posterior.nc", getattr(result, "log_prob", None))
-        plots = write_plots(result, folder)
+        started = time.perf_counter()
+        plots = plotter.write(result, folder) if plotter is not None else None
+        drawn_by = "plot process"
+        if plots is None:
+            from infer.reporting.plots import write_plots
+
+            plots = write_plots(result, folder)
+            drawn_by = "this process" if plotter is None else (
+                f"this process ({plotter.failure})")
+        if timing is not None:
+            timing = dict(timing, plot_seconds=time.perf_counter() - started,
+                          plots_drawn_by=drawn_by)
+            (folder / "timing.json").write_text(dumps(timing), encoding="utf-8")
         (folder / "report.md").write_text(report_markdown(result, plots, timing),
                                           encoding="utf-8")
     return out

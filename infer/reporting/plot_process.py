@@ -1,0 +1,127 @@
+"""Draw the report plots in a second process, started before sampling.
+
+Importing matplotlib and drawing the five figures take about as long as sampling a
+two-parameter study. ``qhat estimate`` therefore starts this module as a child process
+before it samples: the child imports matplotlib and the plotting code on the second core
+while the parent samples, then receives the results (pickled, on its standard input),
+writes the PNG files into the report's temporary folder and prints which files it wrote
+(JSON, on its standard output).
+
+The child runs in its own process group, so a Ctrl-C at the terminal reaches the parent
+only; the parent kills the child before it removes the temporary folder. A child that
+finds its standard input empty (the parent stopped early) exits quietly. If the child
+cannot start or fails, :meth:`PlotProcess.write` returns None and the caller draws the
+plots itself, so the report is the same either way.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import pickle
+import subprocess
+import sys
+from pathlib import Path
+
+__all__ = ["PlotProcess"]
+
+
+class PlotProcess:
+    """A child process that prepares matplotlib now and draws a result's plots later.
+
+    Use as a context manager; the child is killed on exit if it is still running.
+    """
+
+    def __init__(self):
+        #: why the last :meth:`write` returned None (one line), else None
+        self.failure: str | None = None
+        package_root = str(Path(__file__).resolve().parents[2])
+        env = dict(os.environ, MPLBACKEND="Agg")
+        env["PYTHONPATH"] = os.pathsep.join(
+            p for p in (package_root, env.get("PYTHONPATH", "")) if p)
+        try:
+            self._process = subprocess.Popen(
+                [sys.executable, "-m", __name__], stdin=subprocess.PIPE,
+                stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env, process_group=0)
+        except OSError:
+            self._process = None
+
+    def write(self, result, folder: Path) -> dict[str, str] | None:
+        """Have the child write the plots of ``result`` into ``folder`` and wait for it.
+
+        Returns
+        -------
+        dict of str to str, or None
+            Plot key -> file name, as :func:`infer.reporting.plots.write_plots` returns;
+            None if the child could not draw them (the caller then draws them itself).
+        """
+        if self._process is None:
+            self.failure = "the plot process could not be started"
+            return None
+        payload = pickle.dumps((result, str(folder)), protocol=pickle.HIGHEST_PROTOCOL)
+        try:
+            out, err = self._process.communicate(payload)
+        except (OSError, ValueError) as error:  # ValueError: its pipes are already closed
+            self.failure = f"the plot process stopped: {error}"
+            self.close()
+            return None
+        if self._process.returncode != 0:
+            self.failure = err.decode(errors="replace").strip() or (
+                f"the plot process ended with status {self._process.returncode}")
+            return None
+        try:
+            written = json.loads(out)
+        except ValueError:
+            return None
+        return written if isinstance(written, dict) else None
+
+    def close(self) -> None:
+        """Kill the child if it is still running and reap it."""
+        if self._process is not None and self._process.poll() is None:
+            self._process.kill()
+            self._process.communicate()
+
+    def __enter__(self) -> PlotProcess:
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
+
+def _warm_up() -> None:
+    """Import the figure and Agg modules and load the font by drawing a tiny figure."""
+    import io
+
+    from matplotlib.figure import Figure
+
+    figure = Figure(figsize=(1, 1), dpi=20)
+    figure.add_subplot().set_title("warm-up 0.1")
+    figure.savefig(io.BytesIO(), format="png")
+
+
+def _child() -> int:
+    """The child: import, wait for the pickled (result, folder), draw, report the files."""
+    try:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        import infer.results  # noqa: F401  (what unpickling the result needs, imported now)
+        from infer.reporting.plots import write_plots
+
+        _warm_up()
+        payload = sys.stdin.buffer.read()
+        if not payload:
+            return 0
+        result, folder = pickle.loads(payload)
+        written = write_plots(result, Path(folder))
+        sys.stdout.write(json.dumps(written))
+        return 0
+    except KeyboardInterrupt:
+        return 130
+    except Exception as error:  # reported in one line; the parent falls back
+        print(f"plot process: {type(error).__name__}: {error}", file=sys.stderr)
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(_child())
