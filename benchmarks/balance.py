@@ -87,7 +87,7 @@ def brentq_loop(rows, step, upper):
     """Solve step(q) = q for each row with brentq on [0, upper]; return roots."""
     out = []
     for args in rows:
-        out.append(brentq(lambda q: step(q, *args) - q, 0.0, upper, xtol=1e-300,
+        out.append(brentq(lambda q, args=args: step(q, *args) - q, 0.0, upper, xtol=1e-300,
                           rtol=4 * np.finfo(float).eps))
     return np.array(out)
 

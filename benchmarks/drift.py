@@ -4,8 +4,9 @@ Prints, for 1e3 and 1e4 parameter rows drawn over DESIGN.md's range, the median 
 of several runs of log_normaliser and log_binomial_probability (one allele-count
 log-likelihood: the goal is <= 0.1 s for 10,000 rows on one core), per-row cost, the cost
 relative to a baseline of the same size (numpy's scipy.special.betaln on the rows, the
-neutral closed form), and the largest relative error against the mpmath reference on a
-random sample of rows.
+neutral closed form), the median cost of one call of the drift model's log posterior
+(data_demo/kestrel-captive-drift.toml, 96 rows, as the sampler calls it), and the largest
+relative error against the mpmath reference on a random sample of rows.
 
 Usage: .venv/bin/python benchmarks/drift.py [--sample 12] [--runs 5]
 """
@@ -26,6 +27,10 @@ sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
 import drift_reference as reference  # noqa: E402
 
 from infer import drift  # noqa: E402
+from infer.model import Model  # noqa: E402
+from infer.study import load_study  # noqa: E402
+
+STUDY = os.path.join(os.path.dirname(__file__), "..", "data_demo", "kestrel-captive-drift.toml")
 
 
 def draw(rng, rows):
@@ -67,6 +72,12 @@ def main():
             print(
                 f"{rows:>6} {name:<28} {seconds:>9.4f} {per_row:>8.2f} {seconds / base:>9.0f}"
             )
+    model = Model(load_study(STUDY))
+    z = model.initial_points(np.random.default_rng(0), 96)
+    model.log_posterior(z)
+    calls = 20
+    seconds = median_time(lambda: [model.log_posterior(z) for _ in range(calls)], options.runs)
+    print(f"log posterior, kestrel drift study, 96 rows: {1e3 * seconds / calls:.3f} ms per call")
     Ne, mu, s, h, nu = draw(rng, options.sample)
     n = (10 ** rng.uniform(0, 6, options.sample)).astype(int)
     k = (rng.uniform(0, 1, options.sample) * n).astype(int)

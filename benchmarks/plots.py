@@ -61,9 +61,9 @@ def main() -> None:
     for free in (("mu",), ("mu", "s"), ("mu", "s", "h")):
         result = _make_result(free, chains=4, draws=10_000, walkers=40)
         with tempfile.TemporaryDirectory() as folder:
-            wall, cpu = _timed(lambda: plots.write_plots(result, pathlib.Path(folder)),
+            wall, cpu = _timed(lambda r=result: plots.write_plots(r, pathlib.Path(folder)),
                                args.runs)
-        build_wall, _ = _timed(lambda: plots.make_figures(result), args.runs)
+        build_wall, _ = _timed(lambda r=result: plots.make_figures(r), args.runs)
         print(f"{len(free)} free ({', '.join(free)}): five plots wall {wall:.2f} s "
               f"(building {build_wall:.2f} s), cpu {cpu:.2f} s = {wall / base_wall:.1f} "
               f"empty figures")

@@ -14,13 +14,15 @@ Every quantity here is a ratio of integrals of one family,
 
 because x^k (1-x)^(n-k) only shifts the exponents: the normaliser is Z(a, b), the mean
 Z(a+1, b)/Z(a, b), E[x²] = Z(a+2, b)/Z(a, b) and the binomial sample probability
-C(n,k)·Z(a+k, b+n-k)/Z(a, b). ``_log_z`` evaluates log Z for arrays of rows at once:
+C(n,k)·Z(a+k, b+n-k)/Z(a, b). ``_log_z`` (in :mod:`infer.drift_integral`) evaluates
+log Z for arrays of rows at once:
 
 1. **End pieces, analytic.** On [0, x0] write the integrand x^(A-1)·exp(ℓ(x)) with
    ℓ(x) = (B-1)·log(1-x) - c·S(x) = Σ_j ℓ_j x^j, ℓ_1 = -(B-1) - 2hc,
    ℓ_2 = -(B-1)/2 - (1-2h)c, ℓ_j = -(B-1)/j (j ≥ 3). With x = x0·u and
-   exp(Σ_j ℓ_j x0^j u^j) = Σ_j m_j u^j (m_0 = 1, m_j = (1/j) Σ_{i≤j} i·ℓ_i x0^i·m_{j-i}),
-   ∫_0^x0 = x0^A Σ_j m_j/(A+j) term by term. x0 = 0.1/(|B-1| + |c|(2|h|+|1-2h|) + 1)
+   exp(ℓ(x0·u)) = Σ_j m_j u^j, ∫_0^x0 = x0^A Σ_j m_j/(A+j) term by term; (1-x)·ℓ'(x) is
+   quadratic, so the m_j obey a three-term recurrence (``_end_series_sum``).
+   x0 = 0.1/(|B-1| + |c|(2|h|+|1-2h|) + 1)
    keeps |ℓ| ≤ ~0.1 on the piece, so 12 terms leave < 1e-14 relative error; the
    singularity x^(A-1), A down to 1e-6 or less, is integrated exactly (the 1/A term).
    Substituting x = 1 - z maps [1-z0, 1] onto the same form with (A, B) swapped,
@@ -52,6 +54,20 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
+from infer.drift_integral import (
+    _MAX_PEAK_SCALE,
+    _NEGLIGIBLE,
+    _PROBES,
+    _end_series_sum,
+    _end_width,
+    _Layout,
+    _log_f,
+    _log_f_rows,
+    _log_sum,
+    _log_z,
+    _nodes,
+    _panels,
+)
 from infer.errors import InputError
 
 __all__ = [
@@ -65,24 +81,25 @@ __all__ = [
     "sample_stationary",
 ]
 
-_GL_T, _GL_W = np.polynomial.legendre.leggauss(10)
-_PEAK_TEMPLATE = np.array([-10, -6, -3, -1.5, 0, 1.5, 3, 6, 10.0])
-_MAX_PEAK_SCALE = 0.5
-_NEGLIGIBLE = 40.0
-_CHUNK_NODES = 1 << 15
-_COARSE_WIDTH = 2.0
-_END_EPS = 0.1
-_SERIES_TERMS = 12
-_PROBES = 32
-_NEWTON_STEPS = 40
-
 
 # ---------------------------------------------------------------- parameters
 def _exponents(Ne, mu, s, h, nu, *extra):
     """Validate and broadcast; return shape and flat (a, b, c, h, *extra) rows."""
-    arrays = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in (Ne, mu, s, h, nu, *extra)))
-    shape = arrays[0].shape
-    Ne, mu, s, h, nu, *extra = (np.ravel(v) for v in arrays)
+    values = [np.asarray(v, dtype=float) for v in (Ne, mu, s, h, nu, *extra)]
+    shape = values[0].shape
+    if any(v.shape != shape for v in values):
+        shape = np.broadcast_shapes(*(v.shape for v in values))
+    Ne, mu, s, h, nu, *extra = (
+        v.ravel() if v.shape == shape else np.broadcast_to(v, shape).ravel() for v in values
+    )
+    if Ne.size:  # min/max tests first; NaN fails every comparison and takes the slow path
+        low, high = np.minimum.reduce, np.maximum.reduce
+        rates = np.concatenate((Ne, mu, nu))
+        if (
+            low(rates) > 0 and high(rates) < np.inf and low(s) > -np.inf and high(s) <= 1
+            and low(h) > -np.inf and high(h) < np.inf
+        ):
+            return shape, 4 * Ne * mu, 4 * Ne * nu, 2 * Ne * s, h, extra
     for name, value in (("Ne", Ne), ("mu", mu), ("s", s), ("h", h), ("nu", nu)):
         bad = ~np.isfinite(value)
         if name in ("Ne", "mu", "nu"):
@@ -97,185 +114,6 @@ def _exponents(Ne, mu, s, h, nu, *extra):
                 f"{float(value[bad][0]):g} is not allowed: drift needs {need}", field=name
             )
     return shape, 4 * Ne * mu, 4 * Ne * nu, 2 * Ne * s, h, extra
-
-
-def _end_width(B, c, h):
-    """x0 of the analytic end piece: keeps |ℓ(x)| ≤ ~_END_EPS on [0, x0]."""
-    return _END_EPS / (np.abs(B - 1) + np.abs(c) * (2 * np.abs(h) + np.abs(1 - 2 * h)) + 1)
-
-
-# ---------------------------------------------------------------- end pieces
-def _end_series_sum(A, B, c, h, x0):
-    """Σ_j m_j/(A+j), so that ∫_0^x0 x^(A-1)(1-x)^(B-1)e^(-cS) dx = x0^A · sum."""
-    j = np.arange(1, _SERIES_TERMS + 1)
-    ell = -(B - 1)[:, None] / j
-    ell[:, 0] -= 2 * h * c
-    ell[:, 1] -= (1 - 2 * h) * c
-    lam = ell * x0[:, None] ** j * j  # i·ℓ_i·x0^i
-    m = np.zeros((A.size, _SERIES_TERMS + 1))
-    m[:, 0] = 1.0
-    for k in range(1, _SERIES_TERMS + 1):
-        m[:, k] = np.einsum("ri,ri->r", lam[:, :k], m[:, k - 1 :: -1][:, :k]) / k
-    return np.sum(m / (A[:, None] + np.arange(_SERIES_TERMS + 1)), axis=1)
-
-
-def _log_left(A, B, c, h, x0):
-    """Log ∫_0^x0 of the integrand (x0 no wider than _end_width)."""
-    with np.errstate(divide="ignore"):
-        return A * np.log(x0) + np.log(_end_series_sum(A, B, c, h, x0))
-
-
-def _log_right(A, B, c, h, z0):
-    """Log ∫_(1-z0)^1 of the integrand, by x = 1 - z."""
-    return -c + _log_left(B, A, -c, 1 - h, z0)
-
-
-# ---------------------------------------------------------------- interior
-def _log_f(y, A, B, c, h):
-    """L(y) = log of the integrand in y = logit x (dx = x(1-x) dy).
-
-    With e = exp(-|y|): log x = min(y, 0) - log(1+e), log(1-x) = min(-y, 0) - log(1+e).
-    """
-    e = np.exp(-np.abs(y))
-    d = 1 + e
-    x = np.where(y < 0, e, 1.0) / d
-    return np.where(y < 0, A * y, -B * y) - (A + B) * np.log(d) - c * x * (2 * h + (1 - 2 * h) * x)
-
-
-def _peak(y_lo, y_hi, A, B, c, h):
-    """Per-row maximiser of L on [y_lo, y_hi], its scale, and the range that matters.
-
-    The range [t_lo, t_hi] is bounded by the outermost probes within _NEGLIGIBLE of the
-    maximum (plus one probe spacing); outside it the integrand is below e^-40 of its peak.
-    """
-    cols = (A[:, None], B[:, None], c[:, None], h[:, None])
-    probes = y_lo[:, None] + (y_hi - y_lo)[:, None] * np.linspace(0, 1, _PROBES)
-    values = _log_f(probes, *cols)
-    best = np.argmax(values, axis=1)
-    rows = np.arange(A.size)
-    lo = probes[rows, np.maximum(best - 1, 0)]
-    hi = probes[rows, np.minimum(best + 1, _PROBES - 1)]
-    y = probes[rows, best]
-    for _ in range(_NEWTON_STEPS):
-        # the template only needs y* to a small fraction of the peak's scale
-        d1, d2 = _slopes(y, A, B, c, h)
-        tolerance = 0.01 * np.minimum(1 / np.sqrt(np.abs(d2) + 1e-300), _MAX_PEAK_SCALE)
-        lo = np.where(d1 > 0, y, lo)
-        hi = np.where(d1 > 0, hi, y)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            step = y - d1 / d2
-        ok = (d2 < 0) & (step > lo) & (step < hi)
-        y_new = np.where(ok, step, 0.5 * (lo + hi))
-        done = (np.abs(y_new - y) <= tolerance) | (hi - lo <= tolerance)
-        y = y_new
-        if np.all(done):
-            break
-    d1, d2 = _slopes(y, A, B, c, h)
-    scale = 1 / np.sqrt(np.maximum(-d2, 0) + d1**2 + 1e-300)
-    top = np.maximum(_log_f(y, A, B, c, h), values.max(axis=1))
-    keep = values >= (top - _NEGLIGIBLE)[:, None]
-    first = np.maximum(np.argmax(keep, axis=1) - 1, 0)
-    last = np.minimum(_PROBES - np.argmax(keep[:, ::-1], axis=1), _PROBES - 1)
-    t_lo = np.minimum(probes[rows, first], lo)
-    t_hi = np.maximum(probes[rows, last], hi)
-    return y, np.minimum(scale, _MAX_PEAK_SCALE), t_lo, t_hi
-
-
-def _slopes(y, A, B, c, h):
-    """L'(y) and L''(y)."""
-    x, x1 = special.expit(y), special.expit(-y)
-    v = x * x1
-    dS = 2 * h + 2 * (1 - 2 * h) * x
-    d1 = A * x1 - B * x - c * dS * v
-    d2 = -(A + B) * v - c * (2 * (1 - 2 * h) * v**2 + dS * v * (x1 - x))
-    return d1, d2
-
-
-def _panels(y_lo, y_hi, y_peak, width):
-    """Panels (left, right), each (rows, P): coarse | peak template | coarse.
-
-    Panels of zero width (template clipped at the range ends) are moved to the end of
-    each row and dropped where no row needs them, so P is the largest useful count.
-    """
-    template = np.clip(
-        y_peak[:, None] + width[:, None] * _PEAK_TEMPLATE, y_lo[:, None], y_hi[:, None]
-    )
-    p_lo, p_hi = template[:, 0], template[:, -1]
-    span = max(np.max(p_lo - y_lo, initial=0), np.max(y_hi - p_hi, initial=0))
-    n_coarse = max(1, int(np.ceil(span / _COARSE_WIDTH)))
-    t = np.linspace(0, 1, n_coarse + 1)
-    left = y_lo[:, None] + (p_lo - y_lo)[:, None] * t
-    right = p_hi[:, None] + (y_hi - p_hi)[:, None] * t
-    edges = np.concatenate([left[:, :-1], template, right[:, 1:]], axis=1)
-    lo, hi = edges[:, :-1], edges[:, 1:]
-    empty = hi <= lo
-    order = np.argsort(empty, axis=1, kind="stable")
-    used = max(1, int((~empty).sum(axis=1).max()))
-    order = order[:, :used]
-    return np.take_along_axis(lo, order, 1), np.take_along_axis(hi, order, 1)
-
-
-def _nodes(panels):
-    """Gauss–Legendre nodes and weights (rows, n·P) of the panels (left, right)."""
-    lo, hi = panels
-    mid, half = 0.5 * (hi + lo), 0.5 * (hi - lo)
-    nodes = mid[:, :, None] + half[:, :, None] * _GL_T
-    weights = half[:, :, None] * _GL_W
-    return nodes.reshape(len(lo), -1), weights.reshape(len(lo), -1)
-
-
-def _log_sum(log_values, weights):
-    """Log Σ w·exp(v) along axis 1, stable."""
-    top = np.max(log_values, axis=1)
-    top = np.where(np.isfinite(top), top, 0.0)
-    with np.errstate(divide="ignore"):
-        return top + np.log(np.sum(weights * np.exp(log_values - top[:, None]), axis=1))
-
-
-def _integrate(panels, log_f):
-    """Log ∫ exp(log_f(y, rows)) dy over the panels, in row chunks that stay in cache."""
-    lo, hi = panels
-    out = np.empty(len(lo))
-    chunk = max(1, _CHUNK_NODES // (lo.shape[1] * _GL_T.size))
-    for start in range(0, len(lo), chunk):
-        rows = slice(start, start + chunk)
-        nodes, weights = _nodes((lo[rows], hi[rows]))
-        out[rows] = _log_sum(log_f(nodes, rows), weights)
-    return out
-
-
-class _Layout:
-    """The pieces of Z(A, B) for a set of rows: end widths, peak, interior panels."""
-
-    def __init__(self, A, B, c, h):
-        self.A, self.B, self.c, self.h = A, B, c, h
-        self.x0 = _end_width(B, c, h)
-        self.z0 = _end_width(A, -c, 1 - h)
-        self.y_lo = np.log(self.x0) - np.log1p(-self.x0)
-        self.y_hi = np.log1p(-self.z0) - np.log(self.z0)
-        y_peak, width, t_lo, t_hi = _peak(self.y_lo, self.y_hi, A, B, c, h)
-        self.panels = _panels(t_lo, t_hi, y_peak, width)
-        self.log_left = _log_left(A, B, c, h, self.x0)
-        self.log_right = _log_right(A, B, c, h, self.z0)
-
-    def cols(self):
-        return self.A[:, None], self.B[:, None], self.c[:, None], self.h[:, None]
-
-    def log_interior(self, upper=None):
-        """Log ∫ over [y_lo, min(upper, y_hi)] (all of the interior when upper is None)."""
-        panels = self.panels
-        if upper is not None:
-            panels = tuple(np.minimum(p, upper[:, None]) for p in panels)
-        A, B, c, h = self.cols()
-        return _integrate(panels, lambda y, r: _log_f(y, A[r], B[r], c[r], h[r]))
-
-    def log_total(self):
-        return np.logaddexp(np.logaddexp(self.log_left, self.log_interior()), self.log_right)
-
-
-def _log_z(A, B, c, h):
-    """Log Z(A, B) = log ∫_0^1 x^(A-1)(1-x)^(B-1) exp(-c·S(x)) dx for flat rows."""
-    return _Layout(A, B, c, h).log_total()
 
 
 # ---------------------------------------------------------------- public API
@@ -394,7 +232,7 @@ def sample_stationary(rng, Ne, mu, s, h, nu):
 def _quantile_inside(layout, log_z, p, rows):
     """Safeguarded Newton in y on the CDF for the selected (interior) rows."""
     sub = _Layout.__new__(_Layout)
-    sub.A, sub.B, sub.c, sub.h = (v[rows] for v in (layout.A, layout.B, layout.c, layout.h))
+    sub.coefficients = tuple(v[rows] for v in layout.coefficients)
     sub.panels = tuple(p[rows] for p in layout.panels)
     log_left, log_z = layout.log_left[rows], log_z[rows]
     lo, hi = layout.y_lo[rows].copy(), layout.y_hi[rows].copy()
@@ -404,7 +242,7 @@ def _quantile_inside(layout, log_z, p, rows):
         cdf = np.exp(np.logaddexp(log_left, sub.log_interior(upper=y)) - log_z)
         gap = cdf - p
         lo, hi = np.where(gap < 0, y, lo), np.where(gap < 0, hi, y)
-        slope = np.exp(_log_f(y, sub.A, sub.B, sub.c, sub.h) - log_z)
+        slope = np.exp(_log_f_rows(y, sub.coefficients) - log_z)
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             step = y - gap / slope
         ok = (step > lo) & (step < hi)
@@ -422,6 +260,10 @@ def _log_choose(n, k):
 
 def _check_counts(k, n):
     k, n = np.asarray(k, dtype=float), np.asarray(n, dtype=float)
+    if k.ndim == n.ndim == 0:  # the common case, one observation: plain float tests
+        kk, nn = float(k), float(n)
+        if 0 <= kk <= nn < np.inf and kk.is_integer() and nn.is_integer():
+            return k, n
     for name, value in (("sample_alleles", n), ("observed", k)):
         bad = ~np.isfinite(value) | (value < 0) | (value != np.round(value))
         if np.any(bad):
@@ -454,9 +296,13 @@ def log_binomial_probability(k, n, Ne, mu, s, h, nu):
         The log probability, broadcast shape.
     """
     k, n = _check_counts(k, n)
-    shape, a, b, c, h, (k, n) = _exponents(Ne, mu, s, h, nu, k, n)
+    if k.ndim == n.ndim == 0:
+        shape, a, b, c, h, _ = _exponents(Ne, mu, s, h, nu)
+    else:
+        shape, a, b, c, h, (k, n) = _exponents(Ne, mu, s, h, nu, k, n)
     log_z = _log_z(
-        np.concatenate([a + k, a]), np.concatenate([b + (n - k), b]), np.tile(c, 2), np.tile(h, 2)
+        np.concatenate((a + k, a)), np.concatenate((b + (n - k), b)), np.concatenate((c, c)),
+        np.concatenate((h, h)),
     )
     size = a.size
     return (_log_choose(n, k) + log_z[:size] - log_z[size:]).reshape(shape)

@@ -46,6 +46,11 @@ class Model:
         self.observations = list(study.observations)
         self.inheritance = study.inheritance
         self.drift = study.model == "drift"
+        # (k, n, constant) of the drift model's binomial sample probabilities, formed once
+        self._binomial_forms = [
+            obs.binomial_form() if self.drift and obs.depends_on_frequency else None
+            for obs in self.observations
+        ]
         missing = [n for n in PARAMETERS if n not in self.fixed and n not in self.free]
         if missing:
             raise KeyError(f"parameters without a value: {missing}")
@@ -95,15 +100,18 @@ class Model:
         return State.deterministic(dict(params), self.inheritance)
 
     def log_likelihoods(self, params: Mapping[str, np.ndarray]) -> np.ndarray:
-        """Per-observation log-likelihoods, shape (n, n_observations)."""
-        state = self.state(params)
+        """Per-observation log-likelihoods, shape (n, n_observations).
+
+        The deterministic balance is solved only when some observation reads it (under
+        ``model = "drift"`` the frequency-dependent ones integrate over Wright's density).
+        """
+        state = None
         columns = []
-        for observation in self.observations:
+        for observation, form in zip(self.observations, self._binomial_forms, strict=True):
             if self.drift and observation.depends_on_frequency:
                 from infer import drift
 
                 rates = (params["Ne"], params["mu"], params["s"], params["h"], params["nu"])
-                form = observation.binomial_form()
                 if form is not None:
                     k, n, constant = form
                     ll = constant + drift.log_binomial_probability(k, n, *rates)
@@ -113,10 +121,13 @@ class Model:
 
                     ll = drift.log_expectation(log_p, *rates)
             else:
+                if state is None:
+                    state = self.state(params)
                 ll = observation.log_likelihood(state)
             columns.append(np.asarray(ll, dtype=float))
-        n = len(state.q)
-        return np.column_stack(columns) if columns else np.zeros((n, 0))
+        if columns:
+            return np.column_stack(columns)
+        return np.zeros((len(self.state(params).q), 0))  # no observations
 
     def __call__(self, z: np.ndarray) -> np.ndarray:
         """Log posterior and per-observation log-likelihoods for rows ``z``.

@@ -43,7 +43,10 @@ def mp_x_step(x, y, mu, s, h, F, nu, alpha):
     return (mu_f + daughters * (1 - mu_f - nu), mu_m + sons * (1 - mu_m - nu))
 
 
-def mp_root_near(g, guess, width=mp.mpf("1e-7")):
+ROOT_WIDTH = mp.mpf("1e-7")
+
+
+def mp_root_near(g, guess, width=ROOT_WIDTH):
     lo, hi = guess * (1 - width), min(guess * (1 + width), mp.mpf(1) - mp.mpf("1e-40"))
     assert g(lo) > 0 > g(hi), "no sign change of q' - q around the double-precision root"
     return mp.findroot(g, (lo, hi), solver="anderson")
@@ -187,8 +190,10 @@ def check_x_linked(mu, s, h, F, nu, alpha):
         return
     x0 = mp.mpf(float(result.q_male))
     y0 = mp.mpf(float(2 * result.q_female - result.q_male))
-    ref = mp.findroot(lambda x, y: [a - b for a, b in zip(mp_x_step(x, y, *M), (x, y))],
-                      (x0, y0), tol=mp.mpf(10) ** -45)
+    ref = mp.findroot(
+        lambda x, y: [a - b for a, b in zip(mp_x_step(x, y, *M), (x, y), strict=True)],
+        (x0, y0), tol=mp.mpf(10) ** -45,
+    )
     assert abs(x0 - ref[0]) <= 1e-10 * ref[0], (mu, s, h, F, nu, alpha)
     assert abs(y0 - ref[1]) <= 1e-10 * ref[1], (mu, s, h, F, nu, alpha)
     jac = mp.jacobian(lambda x, y: list(mp_x_step(x, y, *M)), (ref[0], ref[1]))
@@ -242,7 +247,8 @@ def test_genotype_frequencies_with_inbreeding():
 def test_affected_fraction_modes():
     q = 1e-3
     AA, Aa, aa = balance.genotype_frequencies(q, 0.0)
-    assert balance.affected_fraction("dominant", q, penetrance=0.8) == pytest.approx(0.8 * (Aa + aa))
+    dominant = balance.affected_fraction("dominant", q, penetrance=0.8)
+    assert dominant == pytest.approx(0.8 * (Aa + aa))
     assert balance.affected_fraction("recessive", q) == pytest.approx(q * q)
     assert balance.affected_fraction("x-linked-male", q, penetrance=0.5) == pytest.approx(5e-4)
     with pytest.raises(InputError, match="mode"):

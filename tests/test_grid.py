@@ -84,7 +84,7 @@ def test_two_parameters_binomial_and_fertility_factorise():
     total = integrate.quad(density, 0, 1, points=[0.3], limit=200)[0]
     cdf = lambda w: integrate.quad(density, 0, w, points=[min(w, 0.3)], limit=200)[0] / total  # noqa: E731
     for key, u in (("median", 0.5), ("lower", 0.025), ("upper", 0.975)):
-        w = optimize.brentq(lambda v: cdf(v) - u, 1e-6, 1 - 1e-9, xtol=1e-12)
+        w = optimize.brentq(lambda v, u=u: cdf(v) - u, 1e-6, 1 - 1e-9, xtol=1e-12)
         # s = 1 - w: the lower end of s is the upper end of w
         s_key = {"median": "median", "lower": "upper", "upper": "lower"}[key]
         assert g1.quantiles["s"][s_key] == pytest.approx(1 - w, rel=2e-3)

@@ -208,7 +208,7 @@ def test_marginal_prior_density_of_log_uniform_is_flat_on_log10_scale():
 def test_grid_marginal_is_overlaid_as_a_normalised_density(free):
     """The grid marginal of log10 mu is the N(-5, 0.01) pdf (closed form, by construction)."""
     figure = _cached(free)[1]["marginals"]
-    for ax, name in zip(figure.axes, free):
+    for ax, name in zip(figure.axes, free, strict=False):
         (exact,) = [ln for ln in ax.get_lines() if ln.get_label() == "exact grid posterior"]
         x, y = exact.get_data()
         assert np.trapezoid(y, x) == pytest.approx(1.0, rel=1e-3)
@@ -284,7 +284,7 @@ def test_predictive_panels_show_observed_and_p_value():
     figure = figures["predictive"]
     axes = _visible_axes(figure)
     assert len(axes) == len(result.replicated)
-    for ax, check in zip(axes, result.summary["predictive"]):
+    for ax, check in zip(axes, result.summary["predictive"], strict=False):
         assert f"p = {check['p_value']:.3g}" in ax.get_title()
         assert check["label"] in ax.get_title()
         vertical = [ln for ln in ax.get_lines() if ln.get_label() == "observed"]

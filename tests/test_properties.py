@@ -290,7 +290,12 @@ def test_q_hat_falls_with_h_while_the_allele_is_in_the_minority(params, step):
     before = balance.q_hat(mu, s, h, F)
     after = balance.q_hat(mu, s, higher, F)
     minority = np.isfinite(before) & np.isfinite(after) & (before < 0.45) & (higher > h)
-    assert np.all(after[minority] < before[minority])
+    # where h and the capped h + step differ in the last digits (h within 1e-12 of 1), the
+    # true change is below the root's accuracy (1e-10 relative against mpmath,
+    # tests/test_balance.py), so the fall is checked within that accuracy
+    assert np.all(after[minority] < before[minority] * (1 + 1e-10))
+    clear = minority & (higher - h > 1e-6)
+    assert np.all(after[clear] < before[clear])
 
 
 @FEW

@@ -1,7 +1,6 @@
 """The convergence loop on targets with known answers."""
 
 import numpy as np
-import pytest
 
 from infer.sampling import SamplerSettings, run_to_convergence
 
@@ -54,7 +53,7 @@ def test_ensembles_do_not_exchange_information():
         lp = np.logaddexp(-0.5 * ((z[:, 0] - 10) / 0.5) ** 2, -0.5 * ((z[:, 0] + 10) / 0.5) ** 2)
         return lp[:, None]
 
-    def apart(rng, n, state={"calls": 0}):
+    def apart(rng, n, state={"calls": 0}):  # noqa: B006 (the calls persist on purpose)
         centre = 10.0 if state["calls"] % 2 == 0 else -10.0
         state["calls"] += 1
         return centre + 0.1 * rng.normal(size=(n, 1))
