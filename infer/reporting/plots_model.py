@@ -28,12 +28,15 @@ _FIXED_DEFAULTS = {"F": 0.0, "nu": 0.0, "alpha": 1.0}
 
 
 def _clopper_pearson(k: int, n: int, level: float = 0.95) -> tuple[float, float]:
-    """Exact binomial interval (Clopper & Pearson 1934, Biometrika 26: 404-413)."""
-    from scipy.stats import beta
+    """Exact binomial interval (Clopper & Pearson 1934, Biometrika 26: 404-413).
+
+    The beta quantiles come from scipy.special (importing scipy.stats costs ~0.4 s).
+    """
+    from scipy.special import betaincinv
 
     tail = (1 - level) / 2
-    lower = 0.0 if k <= 0 else float(beta.ppf(tail, k, n - k + 1))
-    upper = 1.0 if k >= n else float(beta.ppf(1 - tail, k + 1, n - k))
+    lower = 0.0 if k <= 0 else float(betaincinv(k, n - k + 1, tail))
+    upper = 1.0 if k >= n else float(betaincinv(k + 1, n - k, 1 - tail))
     return lower, upper
 
 
