@@ -39,11 +39,14 @@ class PlotProcess:
         env = dict(os.environ, MPLBACKEND="Agg")
         env["PYTHONPATH"] = os.pathsep.join(
             p for p in (package_root, env.get("PYTHONPATH", "")) if p)
+        self._process = None
+        if not sys.executable:  # an embedded interpreter: draw in this process
+            return
         try:
             self._process = subprocess.Popen(
-                [sys.executable, "-m", __name__], stdin=subprocess.PIPE,
+                [sys.executable, "-m", "infer.reporting.plot_process"], stdin=subprocess.PIPE,
                 stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env, process_group=0)
-        except OSError:
+        except (OSError, ValueError):  # cannot start, or no process groups here
             self._process = None
 
     def write(self, result, folder: Path) -> dict[str, str] | None:
