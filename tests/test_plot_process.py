@@ -76,3 +76,14 @@ def test_a_failing_child_reports_one_line_and_none(result, tmp_path):
     assert plotter._process.returncode == 1
     assert plotter.failure.startswith("plot process: FileNotFoundError")
     assert "\n" not in plotter.failure
+
+
+def test_a_result_that_cannot_be_pickled_is_drawn_here(result, tmp_path):
+    import dataclasses
+
+    unpicklable = dataclasses.replace(result)
+    unpicklable.extra = lambda: None  # local lambdas do not pickle
+    with PlotProcess() as plotter:
+        assert plotter.write(unpicklable, tmp_path) is None
+    assert plotter.failure.startswith("the result cannot be sent to the plot process")
+    assert list(tmp_path.iterdir()) == []

@@ -61,7 +61,12 @@ class PlotProcess:
         if self._process is None:
             self.failure = "the plot process could not be started"
             return None
-        payload = pickle.dumps((result, str(folder)), protocol=pickle.HIGHEST_PROTOCOL)
+        try:
+            payload = pickle.dumps((result, str(folder)), protocol=pickle.HIGHEST_PROTOCOL)
+        except (pickle.PicklingError, TypeError, AttributeError) as error:
+            self.failure = f"the result cannot be sent to the plot process: {error}"
+            self.close()
+            return None
         try:
             out, err = self._process.communicate(payload)
         except (OSError, ValueError) as error:  # ValueError: its pipes are already closed
@@ -75,8 +80,11 @@ class PlotProcess:
         try:
             written = json.loads(out)
         except ValueError:
+            written = None
+        if not isinstance(written, dict):
+            self.failure = "the plot process gave no list of files"
             return None
-        return written if isinstance(written, dict) else None
+        return written
 
     def close(self) -> None:
         """Kill the child if it is still running and reap it."""
