@@ -21,6 +21,7 @@ import os
 import pickle
 import subprocess
 import sys
+import sysconfig
 from pathlib import Path
 
 __all__ = ["PlotProcess"]
@@ -35,10 +36,12 @@ class PlotProcess:
     def __init__(self):
         #: why the last :meth:`write` returned None (one line), else None
         self.failure: str | None = None
-        package_root = str(Path(__file__).resolve().parents[2])
         env = dict(os.environ, MPLBACKEND="Agg")
-        env["PYTHONPATH"] = os.pathsep.join(
-            p for p in (package_root, env.get("PYTHONPATH", "")) if p)
+        package_root = str(Path(__file__).resolve().parents[2])
+        installed = {sysconfig.get_paths()[key] for key in ("purelib", "platlib")}
+        if package_root not in installed:  # a source checkout: let the child find it too
+            env["PYTHONPATH"] = os.pathsep.join(
+                p for p in (package_root, env.get("PYTHONPATH", "")) if p)
         self._process = None
         if not sys.executable:  # an embedded interpreter: draw in this process
             return
