@@ -16,6 +16,7 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from infer import drift
 from infer.priors import PARAMETERS, Fixed
 from infer.state import State
 
@@ -109,8 +110,6 @@ class Model:
         columns = []
         for observation, form in zip(self.observations, self._binomial_forms, strict=True):
             if self.drift and observation.depends_on_frequency:
-                from infer import drift
-
                 rates = (params["Ne"], params["mu"], params["s"], params["h"], params["nu"])
                 if form is not None:
                     k, n, constant = form

@@ -181,12 +181,6 @@ def run_to_convergence(
         lp, extra = evaluate(points)
         return lp if extra is None else np.column_stack([lp, extra])
 
-    def advance(start, steps_):
-        current = start
-        for current in sampler.sample(start, iterations=steps_, store=True):  # noqa: B007
-            pass
-        return current
-
     groups = settings.ensembles
     sampler = _seeded_sampler(emcee, walkers * groups, ndim, for_emcee, evaluate, rng, groups)
     coords = np.concatenate([initial(rng, walkers) for _ in range(groups)])
@@ -204,7 +198,7 @@ def run_to_convergence(
     converged = False
     while True:
         block = min(block, settings.max_steps - steps)
-        state = advance(state, block)
+        state = sampler.run_mcmc(state, block, progress=False)
         steps += block
         if progress is not None:
             progress(steps, settings.max_steps)

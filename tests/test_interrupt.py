@@ -12,6 +12,7 @@ default ``reports/<file stem>``) chooses.
 from __future__ import annotations
 
 import io
+import json
 import os
 import select
 import signal
@@ -53,7 +54,7 @@ max_steps = 300
 """
 
 #: sampling that lasts well beyond its first progress report (three free parameters on
-#: the mu/(hs) ridge, convergence needs more than twice the first block of 600 steps)
+#: the mu/(hs) ridge, convergence needs more than twice the first block of 500 steps)
 LONG = """\
 title = "Interrupt test island"
 [parameters]
@@ -447,3 +448,6 @@ def test_title_with_dollar_signs_is_plain_text(tmp_path, monkeypatch, capsys):
     write_study(tmp_path / "study.toml", title="Cost $x^$ per test")
     assert cli.main(["estimate", "study.toml", "--out", "report", "--quiet"]) == 0
     assert "Cost $x^$ per test" in (tmp_path / "report" / "report.md").read_text()
+    # the plot process drew the titles itself (a crash there would fall back silently)
+    timing = json.loads((tmp_path / "report" / "timing.json").read_text())
+    assert timing["plots_drawn_by"] == "plot process"

@@ -8,14 +8,13 @@ same numbers from either tree.
 
 from __future__ import annotations
 
-import functools
 import tomllib
 
 import numpy as np
 import pytest
 
 from infer.estimation import estimate
-from infer.reporting.netcdf import CAUTION_ATTRIBUTE, to_datatree, write_netcdf
+from infer.reporting.netcdf import to_datatree, write_netcdf
 from infer.sampling import SamplerSettings
 from infer.study import parse_study
 
@@ -45,18 +44,13 @@ mode = "dominant"
 """
 
 
-@functools.cache
-def _written(tmp_root: str):
-    study = parse_study(tomllib.loads(STUDY), source="test.toml")
-    result, _ = estimate(study, seed=5, settings=SamplerSettings(target_ess=200), grid=False)
-    path = f"{tmp_root}/posterior.nc"
-    write_netcdf(result, path, result.log_prob)
-    return result, path
-
-
 @pytest.fixture(scope="module")
 def written(tmp_path_factory):
-    return _written(str(tmp_path_factory.mktemp("nc")))
+    study = parse_study(tomllib.loads(STUDY), source="test.toml")
+    result, _ = estimate(study, seed=5, settings=SamplerSettings(target_ess=200), grid=False)
+    path = tmp_path_factory.mktemp("nc") / "posterior.nc"
+    write_netcdf(result, path, result.log_prob)
+    return result, path
 
 
 def test_every_group_equals_the_arviz_datatree(written):
@@ -77,7 +71,9 @@ def test_every_group_equals_the_arviz_datatree(written):
 def test_attributes_carry_labels_and_caution(written):
     result, path = written
     tree = xr.open_datatree(path, engine="h5netcdf")
-    assert tree.attrs["caution"] == CAUTION_ATTRIBUTE
+    # DESIGN.md section 6: every report carries the caution
+    assert tree.attrs["caution"] == (
+        "research estimate, not a clinical or genetic-counselling result")
     assert tree.attrs["title"] == result.study.title
     assert tree["observed_data"].attrs["obs1"] == "affected: births"
     assert tree["observed_data"].attrs["obs2"] == "fertility: children of affected adults"

@@ -4,13 +4,16 @@ from __future__ import annotations
 
 import math
 
-__all__ = ["CAUTION", "fmt", "report_markdown", "terminal_summary"]
+__all__ = ["CAUTION", "CAUTION_LINE", "fmt", "report_markdown", "terminal_summary"]
 
 CAUTION = (
     "**Caution.** This is a research estimate under a population-genetic model, not a "
     "clinical or genetic-counselling result. Do not use it for decisions about patients "
     "or families; defer to licensed clinical practice and local rules."
 )
+
+#: the one-line form, for terminals and file attributes
+CAUTION_LINE = "research estimate, not a clinical or genetic-counselling result"
 
 _UNITS = {
     "mu": "per gene copy per generation",
@@ -193,5 +196,5 @@ def terminal_summary(result, out_path) -> str:
     d = s["diagnostics"]
     lines.append("  converged" if d["converged"] else "  NOT CONVERGED: " + " ".join(d["messages"]))
     lines.append(f"  report: {out_path}/report.md")
-    lines.append("  research estimate, not a clinical or genetic-counselling result")
+    lines.append(f"  {CAUTION_LINE}")
     return "\n".join(lines)

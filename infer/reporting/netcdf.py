@@ -23,12 +23,13 @@ from pathlib import Path
 
 import numpy as np
 
+from infer.reporting.markdown import CAUTION_LINE
+
 __all__ = ["netcdf_groups", "to_datatree", "write_netcdf"]
 
 #: groups without the (chain, draw) sample dimensions
 UNSAMPLED_GROUPS = ("observed_data",)
 
-CAUTION_ATTRIBUTE = "research estimate, not a clinical or genetic-counselling result"
 
 
 def _observation_names(result) -> list[str]:
@@ -64,7 +65,7 @@ def netcdf_groups(result, log_prob: np.ndarray | None = None) -> tuple[dict, dic
     attrs = {
         "/": {"title": result.study.title, "inheritance": result.study.inheritance,
               "model": result.study.model, "interval": result.study.interval,
-              "caution": CAUTION_ATTRIBUTE},
+              "caution": CAUTION_LINE},
         "observed_data": {n: f"{o.kind}: {o.label}"
                           for n, o in zip(names, observations, strict=True)},
     }
@@ -118,14 +119,14 @@ def write_netcdf(result, path: Path, log_prob: np.ndarray | None = None) -> None
             group = root.create_group(group_name)
             group.attrs.update(_group_attrs(group_name))
             group.attrs.update(attrs.get(group_name, {}))
+            dims = {name: _dims(group_name, name, array) for name, array in variables.items()}
             sizes: dict[str, int] = {}
             for name, array in variables.items():
-                for dim, size in zip(_dims(group_name, name, array), array.shape, strict=True):
-                    sizes.setdefault(dim, size)
+                sizes.update(zip(dims[name], array.shape, strict=True))
             group.dimensions = sizes
             for dim, size in sizes.items():  # integer coordinates, as arviz gives them
                 group.create_variable(dim, (dim,), data=np.arange(size, dtype=np.int64))
             for name, array in variables.items():
                 data = np.ascontiguousarray(array)
-                group.create_variable(name, _dims(group_name, name, array), data=data,
+                group.create_variable(name, dims[name], data=data,
                                       fillvalue=np.nan if data.dtype.kind == "f" else None)
