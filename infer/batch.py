@@ -39,13 +39,13 @@ likelihood depends on t and u only through their difference, so the likelihood o
 density of t. Placing the t nodes on the same spacing Δ, t_j = ln mu'_c + j·Δ
 (|j| ≤ J), makes every t_j − u_i a lattice point: L_i = Σ_j w_j B(t_j − u_i), with
 w_j ∝ N(ln mu_j; ln mu, σ) · d ln mu/dt (ln mu_j = t_j − log1p(−e^{t_j}),
-d ln mu/dt = 1/(1 − e^{t_j})), cut at |j·Δ| ≤ 6σ and normalised (derived). The rule
-resolves likelihoods narrower than σ (many copies observed), where a few fixed
-Gauss–Hermite nodes in mu would leave a comb of spikes. In the drift model mu and s
-do not enter as a ratio; there log L, smooth in u and in ln mu, is evaluated on grid
-nodes about 0.33 apart in ln s_het and at 9 nodes of ln mu, and carried to the full
-grid and to a fine
-ln mu rule by cubic splines of the logarithm (``_drift_grid``).
+d ln mu/dt = 1/(1 − e^{t_j})), cut at |j·Δ| ≤ 6σ and at t_j < 0 (mu finite) and
+normalised (derived). The rule resolves likelihoods narrower than σ (many copies
+observed), where a few fixed Gauss–Hermite nodes in mu would leave a comb of spikes.
+In the drift model mu and s do not enter as a ratio; there log L, smooth in u and in
+ln mu, is evaluated on grid nodes about 0.33 apart in ln s_het and at 9 nodes of ln mu,
+and carried to the full grid and to a fine ln mu rule by cubic splines of the
+logarithm (``_drift_grid``).
 
 Every per-locus quantity is computed elementwise or by reductions along a row, so in
 the deterministic model a locus's results do not depend on which other loci share its
@@ -270,12 +270,15 @@ def analyse(observed, sampled, mu, mu_sigma, settings: BatchSettings, *, prior="
     chunks = -(-arrays["observed"].size // chunk_size)
     fitted = None
     if prior == "empirical":
-        surface, keep = None, settings.model == "drift"
-        store = ({} if store is None else store) if keep else None
+        if settings.model != "drift":
+            store = None              # only the drift integrals are worth keeping
+        elif store is None:
+            store = {}
+        surface = None
         tasks = _tasks("surface", arrays, settings, None, chunk_size)
         for index, (part, coarse) in enumerate(map_chunks(run_chunk, tasks)):
             surface = part if surface is None else surface + part   # fixed chunk order
-            if keep:
+            if store is not None:
                 store[index] = coarse
             if progress:
                 progress()

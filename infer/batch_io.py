@@ -56,43 +56,39 @@ class LociTable:
     ignored_columns: list = field(default_factory=list)
 
 
-class _RowError(Exception):
-    def __init__(self, column, message):
-        self.column, self.message = column, message
-
-
 def _number(text, column, *, whole=False):
     text = text.strip()
     if text == "":
-        raise _RowError(column, "is empty")
+        raise InputError("is empty", field=column)
     try:
         value = float(text)
     except ValueError:
-        raise _RowError(column, f"{text!r} is not a number") from None
+        raise InputError(f"{text!r} is not a number", field=column) from None
     if not math.isfinite(value):
-        raise _RowError(column, f"{text!r} is not a finite number")
+        raise InputError(f"{text!r} is not a finite number", field=column)
     if whole and not value.is_integer():
-        raise _RowError(column, f"{text} is not a whole number")
+        raise InputError(f"{text} is not a whole number", field=column)
     if value < 0:
-        raise _RowError(column, f"{text} is negative")
+        raise InputError(f"{text} is negative", field=column)
     return value
 
 
-def _parse_row(cells, index, seen, line):
+def _parse_row(cells, index, seen):
+    """The row's (name, observed, sampled, mu, mu_lower, mu_upper); InputError(field=column)."""
     name = cells[index["locus"]].strip()
     if not name:
-        raise _RowError("locus", "is empty")
+        raise InputError("is empty", field="locus")
     if name in seen:
-        raise _RowError("locus", f"{name!r} repeats line {seen[name]}")
+        raise InputError(f"{name!r} repeats line {seen[name]}", field="locus")
     observed = _number(cells[index["observed"]], "observed", whole=True)
     sampled = _number(cells[index["sampled"]], "sampled", whole=True)
     if sampled == 0:
-        raise _RowError("sampled", "0 alleles sampled")
+        raise InputError("0 alleles sampled", field="sampled")
     if observed > sampled:
-        raise _RowError("observed", f"{observed:g} is more than sampled {sampled:g}")
+        raise InputError(f"{observed:g} is more than sampled {sampled:g}", field="observed")
     mu = _number(cells[index["mu"]], "mu")
     if not 0 < mu < 1:
-        raise _RowError("mu", f"{mu:g} is not between 0 and 1")
+        raise InputError(f"{mu:g} is not between 0 and 1", field="mu")
     bounds = []
     for column in OPTIONAL:
         text = cells[index[column]].strip() if column in index else ""
@@ -101,12 +97,12 @@ def _parse_row(cells, index, seen, line):
     if (lower is None) != (upper is None):
         given = "mu_lower" if lower is not None else "mu_upper"
         other = "mu_upper" if lower is not None else "mu_lower"
-        raise _RowError(given, f"given without {other}")
+        raise InputError(f"given without {other}", field=given)
     if lower is not None:
         if not 0 < lower <= mu:
-            raise _RowError("mu_lower", f"{lower:g} is not in (0, mu = {mu:g}]")
+            raise InputError(f"{lower:g} is not in (0, mu = {mu:g}]", field="mu_lower")
         if not mu <= upper < 1:
-            raise _RowError("mu_upper", f"{upper:g} is not in [mu = {mu:g}, 1)")
+            raise InputError(f"{upper:g} is not in [mu = {mu:g}, 1)", field="mu_upper")
     else:
         lower = upper = math.nan
     return name, observed, sampled, mu, lower, upper
@@ -127,8 +123,7 @@ def read_loci(path, *, skip_bad_rows=False) -> LociTable:
         handle = open(path, newline="", encoding="utf-8-sig")
     except OSError as error:
         raise InputError(f"cannot read the file ({error.strerror})", source=source) from None
-    names, errors, seen = [], [], {}
-    lines = array("q")
+    errors, seen = [], {}    # seen: locus name -> line, in file order
     values = {name: array("d") for name in ("observed", "sampled", "mu", "mu_lower", "mu_upper")}
     header, index = None, None
     with handle:
@@ -155,13 +150,11 @@ def read_loci(path, *, skip_bad_rows=False) -> LociTable:
                                               f"{len(header)}"})
                     continue
                 try:
-                    parsed = _parse_row(cells, index, seen, line)
-                except _RowError as bad:
-                    errors.append({"line": line, "column": bad.column, "message": bad.message})
+                    parsed = _parse_row(cells, index, seen)
+                except InputError as bad:
+                    errors.append({"line": line, "column": bad.field, "message": bad.message})
                     continue
                 seen[parsed[0]] = line
-                names.append(parsed[0])
-                lines.append(line)
                 for column, value in zip(values.values(), parsed[1:], strict=True):
                     column.append(value)
         except UnicodeDecodeError:
@@ -176,10 +169,11 @@ def read_loci(path, *, skip_bad_rows=False) -> LociTable:
         note = f" ({more} more bad row{'s' * (more != 1)}; --skip-bad-rows leaves them out)" \
             if more else ""
         raise InputError(first["message"] + note, source=source, field=_where(first))
-    if not names:
+    if not seen:
         raise InputError("no usable loci after the header", source=source)
     arrays = {name: np.frombuffer(column, dtype=float).copy() for name, column in values.items()}
-    return LociTable(source=source, names=names, lines=np.frombuffer(lines, dtype=np.int64).copy(),
+    return LociTable(source=source, names=list(seen),
+                     lines=np.fromiter(seen.values(), dtype=np.int64, count=len(seen)),
                      skipped=errors, **arrays,
                      ignored_columns=[c for c in header if c not in (*REQUIRED, *OPTIONAL)])
 
@@ -230,10 +224,7 @@ def make_figures(table: LociTable, result, prior_curve):
 
     ``prior_curve`` is ``(log10 s_het, density per log10 unit)`` of the prior used.
     """
-    import matplotlib
-
-    matplotlib.use("Agg")
-    from matplotlib.figure import Figure
+    from matplotlib.figure import Figure   # no pyplot: a user's backend is left alone
 
     loci = result.loci
     ok = np.isfinite(loci["median"])

@@ -20,19 +20,24 @@ _DRIFT_Z_NODES = 9       # drift model: nodes of ln mu (z = -6..6) where log L i
 
 
 def _kernel(mu, mu_sigma, settings, offsets):
-    """Weights w (loci, len(offsets)) of t = ln mu' at t_c + offsets·Δ, each row sums to 1."""
+    """Weights w (loci, len(offsets)) of t = ln mu' at t_c + offsets·Δ, each row sums to 1.
+
+    Nodes with t >= 0 (mu' >= 1, i.e. mu infinite) have no density: weight 0.
+    """
     step = settings.step
     t_c = np.log(mu / (1.0 + mu))
     t = t_c[:, None] + offsets[None, :] * step
+    finite = t < 0.0
+    t = np.where(finite, t, -1.0)
     log_mu = t - np.log1p(-np.exp(t))
     sigma = mu_sigma[:, None]
     exact = sigma == 0.0
     safe = np.where(exact, 1.0, sigma)
     z = (log_mu - np.log(mu)[:, None]) / safe
     w = np.exp(-0.5 * z * z) / (-np.expm1(t))
-    w = np.where(np.abs(offsets)[None, :] * step <= TAILS * sigma, w, 0.0)
+    w = np.where(finite & (np.abs(offsets)[None, :] * step <= TAILS * sigma), w, 0.0)
     w = np.where(exact, (offsets == 0)[None, :].astype(float), w)
-    return w / np.sum(w, axis=1, keepdims=True), t
+    return w / np.sum(w, axis=1, keepdims=True)
 
 
 def _log1m_exp(log_q):
@@ -57,26 +62,41 @@ def _log_binomial_peak(k, n):
     return log_choose + special.xlogy(k, p) + special.xlog1py(n - k, -p), log_choose
 
 
+def _log_binomial_lattice(k, n, mu, r, settings):
+    """Log q and log B(k; n, q) − log max_q B at the ln q lattice points ``r``.
+
+    Lattice point r is ln q = ln mu'_c − u_0 + (J − r)·Δ (decreasing in r). Where
+    q ≥ 1 (no interior balance) only k = n has probability (log B − peak = 0).
+    Returns ``log_q``, ``log_b`` (loci, r.size) and the peak log B (loci,).
+    """
+    u0 = math.log(settings.s_low)
+    log_q = (np.log(mu / (1.0 + mu))[:, None] - u0
+             + (settings.half_width - r)[None, :] * settings.step)
+    peak, log_choose = _log_binomial_peak(k, n)
+    interior = log_q < 0.0
+    inside = np.where(interior, log_q, -1.0)
+    log_b = np.where(interior, log_choose[:, None] + k[:, None] * inside
+                     + (n - k)[:, None] * _log1m_exp(inside) - peak[:, None],
+                     np.where((k == n)[:, None], 0.0, -np.inf))
+    return log_q, log_b, peak
+
+
 def _deterministic_grid(k, n, mu, mu_sigma, settings):
     """Scaled likelihood (loci, S) and its log scale (loci,), module docstring rule."""
     S, J, step = settings.grid_points, settings.half_width, settings.step
-    u0 = math.log(settings.s_low)
-    peak, log_choose = _log_binomial_peak(k, n)
-    # ln q on the lattice r = 0..S+2J-1: ln mu'_c - u_0 + (J - r)·Δ (decreasing in r)
     r = np.arange(S + 2 * J)
-    log_q = np.log(mu / (1.0 + mu))[:, None] - u0 + (J - r)[None, :] * step
-    interior = log_q < 0.0
-    log_b = (log_choose[:, None] + k[:, None] * log_q
-             + (n - k)[:, None] * _log1m_exp(np.where(interior, log_q, -1.0)) - peak[:, None])
-    log_b = np.where(interior, log_b, np.where((k == n)[:, None], 0.0, -np.inf))
-    # rescale by the largest value this locus's kernel can reach, so no row underflows
+    _, log_b, peak = _log_binomial_lattice(k, n, mu, r, settings)
+    # keep only the lattice points this locus's kernel can reach (the others meet zero
+    # weights, and exp() of them could overflow: inf·0 = NaN), rescaled by their largest
+    # value so no row underflows
     reach = np.sum(np.arange(J + 1)[None, :] * step <= TAILS * mu_sigma[:, None], axis=1) - 1
     reachable = (r[None, :] >= (J - reach)[:, None]) & (r[None, :] <= (S - 1 + J + reach)[:, None])
-    top = np.max(np.where(reachable, log_b, -np.inf), axis=1)
+    log_b = np.where(reachable, log_b, -np.inf)
+    top = np.max(log_b, axis=1)
     top = np.where(np.isfinite(top), top, 0.0)
     b = np.exp(log_b - top[:, None])
     peak = peak + top
-    w, _ = _kernel(mu, mu_sigma, settings, np.arange(-J, J + 1))
+    w = _kernel(mu, mu_sigma, settings, np.arange(-J, J + 1))
     # L_i = Σ_a w_a b_(i + 2J - a): a dot product of each row's reversed kernel with a
     # sliding window of its lattice (einsum's own loop, the same for every row)
     windows = np.lib.stride_tricks.sliding_window_view(b, 2 * J + 1, axis=1)

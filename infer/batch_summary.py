@@ -6,10 +6,12 @@ import math
 
 import numpy as np
 
-from infer.batch_likelihood import _log1m_exp, _log_binomial_peak
+from infer.batch_likelihood import _log_binomial_lattice
 from infer.batch_prior import SHetPrior, trapezoid_weights
 
 __all__ = ["posterior_summary", "FLAGS"]
+
+_Z975 = 1.959963984540054   # standard normal 97.5 % quantile (flag 2 uses mu's upper 97.5 % point)
 
 FLAGS = {
     1: ("zero-observed", "zero observed: only a lower bound on s_het"),
@@ -73,16 +75,8 @@ def _expected_count(k, n, mu, mu_sigma, prior, settings):
     (``_predictive_weights``). Evaluated on every second lattice point, the cumulative
     mass interpolated linearly.
     """
-    S, J, step = settings.grid_points, settings.half_width, settings.step
-    u0 = math.log(settings.s_low)
-    r = np.arange(S + 2 * J - 1, -1, -2)
-    log_q = np.log(mu / (1.0 + mu))[:, None] - u0 + (J - r)[None, :] * step   # increasing
-    peak, log_choose = _log_binomial_peak(k, n)
-    interior = log_q < 0.0
-    inside = np.where(interior, log_q, -1.0)
-    log_b = np.where(interior, log_choose[:, None] + k[:, None] * inside
-                     + (n - k)[:, None] * _log1m_exp(inside) - peak[:, None],
-                     np.where((k == n)[:, None], 0.0, -np.inf))
+    r = np.arange(settings.grid_points + 2 * settings.half_width - 1, -1, -2)
+    log_q, log_b, _ = _log_binomial_lattice(k, n, mu, r, settings)   # log_q increasing
     with np.errstate(divide="ignore"):
         log_post = log_b + np.log(_predictive_weights(log_q, mu, mu_sigma, prior, settings))
     log_post -= np.max(log_post, axis=1, keepdims=True)
@@ -125,22 +119,25 @@ def posterior_summary(likelihood, log_scale, prior: SHetPrior, settings,
     weights = trapezoid_weights(settings)
     prior_mass = np.sum(weights * prior_density)
     density = likelihood * prior_density[None, :]
-    evidence = np.sum(density * weights[None, :], axis=1)
+    mass = density * weights[None, :]
+    evidence = np.sum(mass, axis=1)
     ok = evidence > 0.0
+    # rows without likelihood get a flat density (masked to NaN below)
     density = np.where(ok[:, None], density, 1.0)
-    norm = np.sum(density * weights[None, :], axis=1)
+    mass = np.where(ok[:, None], mass, weights[None, :])
+    norm = np.where(ok, evidence, np.sum(weights))
     tail = 0.5 * (1.0 - settings.interval)
     lower, median, upper = _quantiles(density, settings, (tail, 0.5, 1.0 - tail))
-    mean_u = np.sum(density * weights * u, axis=1) / norm
-    sd_log = np.sqrt(np.maximum(np.sum(density * weights * u * u, axis=1) / norm - mean_u ** 2, 0))
-    mean = np.sum(density * weights * np.exp(u), axis=1) / norm
+    mean_u = np.sum(mass * u, axis=1) / norm
+    sd_log = np.sqrt(np.maximum(np.sum(mass * u * u, axis=1) / norm - mean_u ** 2, 0))
+    mean = np.sum(mass * np.exp(u), axis=1) / norm
     with np.errstate(divide="ignore"):
         log_marginal = log_scale + np.log(np.where(ok, evidence, 0.0)) - math.log(prior_mass)
     if settings.model == "drift":
         expected = _drift_expected(k, n, mu, np.exp(median), settings)
     else:
         expected = _expected_count(k, n, mu, mu_sigma, prior, settings)
-    mu_upper = mu * np.exp(1.959963984540054 * mu_sigma)
+    mu_upper = mu * np.exp(_Z975 * mu_sigma)
     flags = np.zeros(k.shape, dtype=np.int64)
     flags |= np.where(k == 0, 1, 0)
     flags |= np.where(k / n > mu_upper / (1.0 + mu_upper) / settings.s_low, 2, 0)

@@ -195,13 +195,20 @@ def run(args) -> int:
     """Run ``qhat batch``."""
     from pathlib import Path
 
-    from infer.reporting.folder import check_destination
+    from infer.reporting.folder import check_destination, terminate_as_interrupt
 
     started = time.perf_counter()
     _check_options(args)
     out = Path(args.out)
     check_destination(out, args.force)
+    # SIGTERM (a cluster scheduler's kill) unwinds like Ctrl-C: the temporary chunk
+    # store and the half-written report folder are removed
+    with terminate_as_interrupt():
+        return _run(args, out, started)
 
+
+def _run(args, out, started) -> int:
+    """Read the loci, compute, write the report (inside ``terminate_as_interrupt``)."""
     from infer import batch, batch_io
 
     table = batch_io.read_loci(args.loci, skip_bad_rows=args.skip_bad_rows)
