@@ -28,7 +28,7 @@ import numpy as np  # noqa: E402
 from scipy.optimize import brentq  # noqa: E402
 
 sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[1]))
-from infer import balance  # noqa: E402
+from infer.core import balance  # noqa: E402
 
 N = 1_000_000
 SUBSET = 2_000

@@ -29,7 +29,7 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 
-from infer.calibration import (  # noqa: E402
+from infer.inference.calibration import (  # noqa: E402
     coverage,
     draw_truth,
     posterior_cdf_at_truth,
@@ -37,9 +37,9 @@ from infer.calibration import (  # noqa: E402
     simulate_study,
     uniformity_p_value,
 )
-from infer.grid import grid_posterior  # noqa: E402
-from infer.model import Model  # noqa: E402
-from infer.study import load_study  # noqa: E402
+from infer.inference.grid import grid_posterior  # noqa: E402
+from infer.model.posterior import Model  # noqa: E402
+from infer.files.study import load_study  # noqa: E402
 
 LEVELS = (0.5, 0.9, 0.95)
 BINS = 20
@@ -62,7 +62,7 @@ def calibrate(study, replicates: int, sampler: int, rng: np.random.Generator) ->
         for n in model.free:
             u_grid[n].append(grid.cdf_at(n, truth[n]))
         if i < sampler:
-            from infer.sampling import run_to_convergence
+            from infer.inference.sampling import run_to_convergence
 
             run = run_to_convergence(fit_model, fit_model.initial_points, fit_model.ndim, rng)
             params, _ = fit_model.to_parameters(run.z.reshape(-1, fit_model.ndim))

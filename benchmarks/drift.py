@@ -1,4 +1,4 @@
-"""Throughput and accuracy of infer.drift on parameter arrays.
+"""Throughput and accuracy of infer.core.drift.stationary on parameter arrays.
 
 Prints, for 1e3 and 1e4 parameter rows drawn over DESIGN.md's range, the median wall time
 of several runs of log_normaliser and log_binomial_probability (one allele-count
@@ -26,9 +26,9 @@ sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
 
 import drift_reference as reference  # noqa: E402
 
-from infer import drift  # noqa: E402
-from infer.model import Model  # noqa: E402
-from infer.study import load_study  # noqa: E402
+from infer.core.drift import stationary as drift  # noqa: E402
+from infer.model.posterior import Model  # noqa: E402
+from infer.files.study import load_study  # noqa: E402
 
 STUDY = os.path.join(os.path.dirname(__file__), "..", "data_demo", "kestrel-captive-drift.toml")
 

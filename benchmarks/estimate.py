@@ -43,8 +43,8 @@ def whole_process(study: Path, repeats: int) -> float:
 
 
 def vectorised_ess_rate(study, repeats: int) -> tuple[float, float]:
-    from infer.model import Model
-    from infer.sampling import run_to_convergence
+    from infer.model.posterior import Model
+    from infer.inference.sampling import run_to_convergence
 
     rates, steps = [], []
     for seed in range(repeats):
@@ -59,8 +59,8 @@ def vectorised_ess_rate(study, repeats: int) -> tuple[float, float]:
 def scalar_ess_rate(study, steps: int = 1500, walkers: int = 48) -> float:
     import emcee
 
-    from infer import diagnostics
-    from infer.model import Model
+    from infer.inference import diagnostics
+    from infer.model.posterior import Model
 
     model = Model(study)
     rng = np.random.default_rng(0)
@@ -81,8 +81,8 @@ def scalar_ess_rate(study, steps: int = 1500, walkers: int = 48) -> float:
 
 
 def grid_seconds(study) -> float | None:
-    from infer.grid import grid_posterior
-    from infer.model import Model
+    from infer.inference.grid import grid_posterior
+    from infer.model.posterior import Model
 
     model = Model(study)
     if model.ndim > 2:
@@ -96,7 +96,7 @@ def main() -> None:
     parser = argparse.ArgumentParser()
     parser.add_argument("--repeats", type=int, default=3)
     args = parser.parse_args()
-    from infer.study import load_study
+    from infer.files.study import load_study
 
     print(f"{'study':<28} {'free':>4} {'process s':>9} {'ESS/s vec':>10} {'ESS/s scalar':>12} "
           f"{'ratio':>6} {'steps':>6} {'grid s':>7}")

@@ -43,7 +43,7 @@ def main() -> None:
     from matplotlib.figure import Figure
     from test_plots import _make_result
 
-    from infer.reporting import plots
+    from infer.reporting.plots import figures as plots
 
     def empty_figure():
         figure = Figure(figsize=(6, 4), dpi=100)

@@ -1,6 +1,6 @@
 """High-precision mpmath reference for Z(A, B) = ∫_0^1 x^(A-1)(1-x)^(B-1) e^(-c S(x)) dx.
 
-Independent of infer.drift: mpmath's adaptive tanh-sinh quadrature at 30+ digits on
+Independent of infer.core.drift.stationary: mpmath's adaptive tanh-sinh quadrature at 30+ digits on
 pieces chosen here. Derived decomposition:
 
 - Ends: on [0, x1], with x = x1·e^(-t), ∫ x^(A-1) g(x) dx = x1^A [1/A + ∫_0^∞ e^(-At)

@@ -5,8 +5,8 @@ import itertools
 import numpy as np
 import pytest
 
-from infer import balance
-from infer.approximations import (
+from infer.core import balance
+from infer.core.approximations import (
     RANGE_TOLERANCE,
     autosomal_approximations,
     x_linked_approximations,

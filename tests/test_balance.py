@@ -1,4 +1,4 @@
-"""Exact equilibria of infer.balance against independent references.
+"""Exact equilibria of infer.core.balance against independent references.
 
 The reference is the recursion of DESIGN.md section 2 written out again in mpmath at
 50 digits (genotype frequencies -> selection -> mutation), solved with mpmath's
@@ -11,7 +11,7 @@ import mpmath as mp
 import numpy as np
 import pytest
 
-from infer import balance
+from infer.core import balance
 from infer.errors import InputError
 
 mp.mp.dps = 50

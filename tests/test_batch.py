@@ -3,7 +3,7 @@
 References outside the code under test:
 
 * the life-cycle recursion of DESIGN.md section 2, iterated to its fixed point, and
-  ``infer.balance.q_hat`` (exact balance, separate implementation);
+  ``infer.core.balance.q_hat`` (exact balance, separate implementation);
 * scipy.integrate.quad of the same one-dimensional posterior (mu integrated by an
   inner quad over its log-normal), and an emcee run of the joint (ln s_het, z) posterior
   (Foreman-Mackey et al. 2013, PASP 125:306) — neither uses the lattice rule;
@@ -27,7 +27,7 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, special, stats
 
-from infer import batch
+from infer.batch import run as batch
 from infer.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -86,8 +86,8 @@ def _run_one(k, n, mu, sigma, settings=None, prior="log-uniform"):
 def test_balance_frequency_is_the_fixed_point_of_the_life_cycle():
     """Derived: q_hat = mu/(s_het(1+mu)) is the fixed point of DESIGN.md section 2 with
     h = 1/2, s = 2 s_het, F = nu = 0 (iterate q' = q_sel + (1 - q_sel)·mu); it also equals
-    infer.balance.q_hat (independent implementation)."""
-    from infer.balance import q_hat
+    infer.core.balance.q_hat (independent implementation)."""
+    from infer.core.balance import q_hat
 
     mu = np.array([1e-6, 3e-6, 1e-4, 2e-5])
     s_het = np.array([1e-3, 0.05, 0.3, 2e-3])
@@ -468,7 +468,7 @@ def test_drift_interpolation_matches_direct_evaluation():
     interpolation), and the posterior medians under a log-uniform prior to 0.3 %."""
     from scipy.special import logsumexp
 
-    from infer.drift import log_binomial_probability
+    from infer.core.drift.stationary import log_binomial_probability
 
     k = np.array([0.0, 3.0, 40.0, 700.0])
     n = np.full(4, 120_000.0)
@@ -518,7 +518,7 @@ def test_sigterm_during_the_run_leaves_nothing(tmp_path):
     temporary = tmp_path / "tmp"
     temporary.mkdir()
     script = ("import os, signal, sys\n"
-              "from infer import batch\n"
+              "from infer.batch import run as batch\n"
               "from infer.cli import main\n"
               "real = batch.run_chunk\n"
               "def run_chunk(task):\n"

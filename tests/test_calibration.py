@@ -8,16 +8,16 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from infer.calibration import (
+from infer.inference.calibration import (
     coverage,
     draw_truth,
     posterior_cdf_at_truth,
     simulate_study,
     uniformity_p_value,
 )
-from infer.grid import grid_posterior
-from infer.model import Model
-from infer.study import load_study
+from infer.inference.grid import grid_posterior
+from infer.model.posterior import Model
+from infer.files.study import load_study
 
 DEMO = Path(__file__).resolve().parents[1] / "data_demo"
 

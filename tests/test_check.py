@@ -13,7 +13,7 @@ References (named again beside each check):
   Yasuda & Kondo 1980, J. Med. Genet. 17:106); per nucleotide ~2.5e-8 (Nachman & Crowell
   2000, Genetics 156:297) and 1.2e-8 (Kong et al. 2012, Nature 488:471).
 * Exact roots: the balance quadratic (1-2h)s q^2 + hs(1+mu) q = mu at F = 0 (DESIGN.md
-  section 2, derived), solved here with numpy.roots independently of infer.balance.
+  section 2, derived), solved here with numpy.roots independently of infer.core.balance.
 """
 
 from __future__ import annotations
@@ -28,8 +28,8 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer.check import check_claim
-from infer.claims import load_claim, parse_claim
+from infer.check.run import check_claim
+from infer.files.claim import load_claim, parse_claim
 from infer.errors import InputError
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -213,7 +213,7 @@ def test_claim_uncertainty_widens_the_predictive(tmp_path):
     """A wide authors' interval lowers the evidence against the observed count.
 
     Cross-check of the exact tail average against Monte Carlo predictive draws
-    (infer.results.two_sided_p_value on binomial draws, the definition itself).
+    (infer.estimate.results.two_sided_p_value on binomial draws, the definition itself).
     """
     point = check_claim(_claim(tmp_path, "mu = 1.5e-5\ns = 0.5\nh = 1.0", DOM_OBS))
     wide = check_claim(_claim(tmp_path, "mu = { claimed = 1.5e-5, lower = 5e-6, upper = 4.5e-5 }"
@@ -221,7 +221,7 @@ def test_claim_uncertainty_widens_the_predictive(tmp_path):
     p_point = point.implied["observations"][0]["p_value"]
     p_wide = wide.implied["observations"][0]["p_value"]
     assert p_wide > p_point
-    from infer.results import two_sided_p_value
+    from infer.estimate.results import two_sided_p_value
 
     rng = np.random.default_rng(3)
     sigma = (math.log(4.5e-5) - math.log(5e-6)) / (2 * 1.959963984540054)

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from infer import diagnostics
+from infer.inference import diagnostics
 
 
 def ar1(rng, phi, chains=4, draws=4000):

@@ -1,4 +1,4 @@
-"""Wright's stationary density (infer.drift) against closed forms, scipy.stats and mpmath.
+"""Wright's stationary density (infer.core.drift.stationary) against closed forms, scipy.stats and mpmath.
 
 Sources: Wright 1931, Genetics 16:97 (the stationary density; neutral case Beta(4Ne·u,
 4Ne·v)); Kummer's integral representation of 1F1 (Abramowitz & Stegun 13.2.1);
@@ -15,7 +15,7 @@ import pytest
 from scipy import special, stats
 
 import drift_reference as reference
-from infer import drift
+from infer.core.drift import stationary as drift
 from infer.errors import InputError
 
 RTOL = 1e-6  # DESIGN.md section 2: relative error <= 1e-6 against an mpmath reference
@@ -181,10 +181,10 @@ def test_sweep_against_mpmath(case):
 # ------------------------------------------------------------------ large Ne, recessive limit
 def test_large_ne_mean_converges_to_deterministic_q_hat():
     """As Ne grows (4Ne·mu and 4Ne·s both ≫ 1) the density concentrates at the deterministic
-    equilibrium of infer.balance.q_hat (diffusion theory, common practice): the relative gap
+    equilibrium of infer.core.balance.q_hat (diffusion theory, common practice): the relative gap
     shrinks roughly like 1/Ne and is below 0.1 % at Ne = 1e5."""
     mu, s, h, nu = 1e-4, 0.05, 0.2, 1e-7
-    from infer.balance import q_hat
+    from infer.core.balance import q_hat
 
     target = q_hat(mu, s, h, nu=nu)
     gaps = [

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer import drift
+from infer.core.drift import stationary as drift
 
 
 @pytest.mark.parametrize("Ne,mu,nu", [(50, 1e-3, 1e-3), (50, 1e-3, 5e-4), (1000, 1e-6, 1e-6)])
@@ -41,7 +41,7 @@ def test_binomial_fast_path_equals_the_general_integral(kind):
     # Derived (Hardy-Weinberg): with F = 0 the genotype multinomial is a binomial in the
     # allele copies times a constant, so the fast sample probability must equal the
     # general quadrature of P(data | x) over Wright's density.
-    from infer.observations import parse_observation
+    from infer.model.observations.kinds import parse_observation
 
     table = ({"kind": kind, "AA": 112, "Aa": 7, "aa": 1} if kind == "genotype-count"
              else {"kind": kind, "observed": 9, "sampled": 240})

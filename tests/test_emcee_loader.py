@@ -7,7 +7,7 @@ import sys
 
 CODE = """
 import sys
-from infer.emcee_loader import load_emcee
+from infer.inference.emcee_loader import load_emcee
 emcee = load_emcee()
 assert "scipy.stats" not in sys.modules, "scipy.stats was imported"
 assert hasattr(emcee, "EnsembleSampler") and emcee.moves.kde.gaussian_kde is None
@@ -24,7 +24,7 @@ def test_emcee_without_scipy_stats_then_scipy_stats_as_usual():
 
 
 def test_loaded_emcee_is_the_module_a_plain_import_gives():
-    from infer.emcee_loader import load_emcee
+    from infer.inference.emcee_loader import load_emcee
 
     emcee = load_emcee()
     import emcee as plain

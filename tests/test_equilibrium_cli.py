@@ -8,7 +8,7 @@ import sys
 import numpy as np
 import pytest
 
-from infer import balance
+from infer.core import balance
 
 
 def qhat(*args):
@@ -78,7 +78,7 @@ def test_plot_written(tmp_path):
 
 
 def test_stationary_with_drift():
-    drift = pytest.importorskip("infer.drift")
+    drift = pytest.importorskip("infer.core.drift.stationary")
     if not hasattr(drift, "stationary_summary"):
         pytest.skip("drift model not built yet")
     done = qhat("--mu", "1e-5", "--s", "0.01", "--h", "0.5", "--nu", "1e-6", "--Ne", "1000",

@@ -4,10 +4,10 @@ large-sample limit, and the determinism of the summary."""
 import numpy as np
 import pytest
 
-from infer.estimation import estimate
-from infer.grid import compare_with_draws, grid_posterior
-from infer.model import Model
-from infer.study import parse_study
+from infer.estimate.pipeline import estimate
+from infer.inference.grid import compare_with_draws, grid_posterior
+from infer.model.posterior import Model
+from infer.files.study import parse_study
 
 LOG_MU = {"prior": "log-uniform", "low": 1e-8, "high": 1e-3}
 UNIFORM = {"prior": "uniform", "low": 0.0, "high": 1.0}

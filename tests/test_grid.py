@@ -4,9 +4,9 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer.grid import grid_posterior
-from infer.model import Model
-from infer.study import parse_study
+from infer.inference.grid import grid_posterior
+from infer.model.posterior import Model
+from infer.files.study import parse_study
 
 
 def one_parameter_sporadic(cases, births, low=1e-8, high=1e-3):

@@ -300,7 +300,7 @@ def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how, 
     interrupted after summary.json and posterior.nc are in the temporary folder. A new
     --out is not created; an existing report replaced with --force stays byte for byte as
     it was; no plot process is left running."""
-    import infer.reporting.plots
+    import infer.reporting.plots.figures
 
     if where == "plot process":
         monkeypatch.setattr(infer.reporting.plot_process.PlotProcess, "write",
@@ -314,7 +314,7 @@ def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how, 
     for name in ("summary.json", "report.md", "marginals.png"):
         (tmp_path / "kept" / name).write_bytes(f"earlier {name}\n".encode())
     kept = {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()}
-    monkeypatch.setattr(infer.reporting.plots, "write_plots", plots_that_get_interrupted(how))
+    monkeypatch.setattr(infer.reporting.plots.figures, "write_plots", plots_that_get_interrupted(how))
     status = cli.main(["estimate", str(study), "--out", str(tmp_path / "new"), "--quiet"])
     assert status == 130
     assert capsys.readouterr().err == INTERRUPTED + "\n"
@@ -347,13 +347,13 @@ class FakeTerminal(io.StringIO):
 
 
 def test_interrupted_message_starts_its_own_line_on_a_terminal(tmp_path, monkeypatch):
-    import infer.estimation
+    import infer.estimate.pipeline
 
     def estimate(study, seed=None, progress=None, **_):
         progress(600, 40_000)
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(infer.estimation, "estimate", estimate)
+    monkeypatch.setattr(infer.estimate.pipeline, "estimate", estimate)
     terminal = FakeTerminal()
     monkeypatch.setattr(sys, "stderr", terminal)
     study = write_study(tmp_path / "study.toml")

@@ -13,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import stats
 
-from infer.moves import GroupedDifferentialEvolution, GroupedStretch
+from infer.inference.moves import GroupedDifferentialEvolution, GroupedStretch
 
 
 def _unused(points):

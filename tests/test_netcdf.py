@@ -13,10 +13,10 @@ import tomllib
 import numpy as np
 import pytest
 
-from infer.estimation import estimate
+from infer.estimate.pipeline import estimate
 from infer.reporting.netcdf import to_datatree, write_netcdf
-from infer.sampling import SamplerSettings
-from infer.study import parse_study
+from infer.inference.sampling import SamplerSettings
+from infer.files.study import parse_study
 
 xr = pytest.importorskip("xarray")
 
@@ -99,9 +99,9 @@ def test_writing_does_not_import_arviz_or_xarray(tmp_path):
     code = (
         "import sys\n"
         "import tomllib\n"
-        "from infer.study import parse_study\n"
-        "from infer.estimation import estimate\n"
-        "from infer.sampling import SamplerSettings\n"
+        "from infer.files.study import parse_study\n"
+        "from infer.estimate.pipeline import estimate\n"
+        "from infer.inference.sampling import SamplerSettings\n"
         "from infer.reporting.netcdf import write_netcdf\n"
         f"study = parse_study(tomllib.loads({STUDY!r}), source='t.toml')\n"
         "r, _ = estimate(study, seed=1, settings=SamplerSettings(target_ess=100), grid=False)\n"

@@ -18,14 +18,14 @@ import pytest
 from scipy import stats
 
 from infer.errors import InputError
-from infer.observations import (
+from infer.model.observations.kinds import (
     KINDS,
     AlleleCount,
     Estimate,
     Fertility,
     parse_observation,
 )
-from infer.state import State
+from infer.model.balance_state import State
 
 ROWS = 4
 

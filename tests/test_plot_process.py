@@ -1,6 +1,6 @@
 """The plot process (infer/reporting/plot_process.py) draws what this process would draw.
 
-The reference is the in-process writer, ``infer.reporting.plots.write_plots``, on the same
+The reference is the in-process writer, ``infer.reporting.plots.figures.write_plots``, on the same
 result: the child must write the same files, byte for byte (Agg rendering is
 deterministic), and must leave nothing running or printed when it is not used.
 """
@@ -13,11 +13,11 @@ import tomllib
 
 import pytest
 
-from infer.estimation import estimate
+from infer.estimate.pipeline import estimate
 from infer.reporting.plot_process import PlotProcess
-from infer.reporting.plots import PLOT_FILES, write_plots
-from infer.sampling import SamplerSettings
-from infer.study import parse_study
+from infer.reporting.plots.figures import PLOT_FILES, write_plots
+from infer.inference.sampling import SamplerSettings
+from infer.files.study import parse_study
 
 STUDY = """
 title = "Test: a recessive disorder in an invented valley"

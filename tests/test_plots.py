@@ -19,11 +19,11 @@ import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 from scipy import stats  # noqa: E402
 
-from infer.balance import q_hat  # noqa: E402
-from infer.grid import GridPosterior  # noqa: E402
-from infer.reporting import plots  # noqa: E402
-from infer.results import EstimateResult  # noqa: E402
-from infer.study import parse_study  # noqa: E402
+from infer.core.balance import q_hat  # noqa: E402
+from infer.inference.grid import GridPosterior  # noqa: E402
+from infer.reporting.plots import figures as plots  # noqa: E402
+from infer.estimate.results import EstimateResult  # noqa: E402
+from infer.files.study import parse_study  # noqa: E402
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C 2003), section 5.2
 
@@ -317,7 +317,7 @@ def test_x_linked_male_counts_are_compared_with_q_male():
     x_linked_balance gives q_male; the plotted median curve must equal it at the
     median mu when mu is the only parameter varying between draws (h is the x axis).
     """
-    from infer.balance import x_linked_balance
+    from infer.core.balance import x_linked_balance
 
     observations = [{"kind": "allele-count", "label": "male X survey", "observed": 4,
                      "sampled": 20000, "sex": "male"}]

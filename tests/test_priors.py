@@ -15,7 +15,7 @@ import pytest
 from scipy import integrate, stats
 
 from infer.errors import InputError
-from infer.priors import (
+from infer.model.priors.parsing import (
     DEFAULTS,
     DRIFT_DEFAULTS,
     PARAMETERS,

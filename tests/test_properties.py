@@ -29,9 +29,11 @@ from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 from scipy.special import logsumexp
 
-from infer import approximations, balance, drift
+from infer.core import approximations
+from infer.core import balance
+from infer.core.drift import stationary as drift
 from infer.errors import InputError
-from infer.study import load_study, parse_study
+from infer.files.study import load_study, parse_study
 
 ROOT = Path(__file__).resolve().parents[1]
 SETTINGS = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -68,7 +70,7 @@ mpmath.mp.dps = 50
 def autosomal_change(q, mu, s, h, F, nu):
     """q' - q for one generation of the autosomal life cycle, in 50-digit arithmetic.
 
-    Written out from DESIGN.md section 2 (derived, independent of infer.balance):
+    Written out from DESIGN.md section 2 (derived, independent of infer.core.balance):
     zygotes AA p²(1-F)+pF, Aa 2pq(1-F), aa q²(1-F)+qF; fitnesses 1, 1-hs, 1-s;
     q_sel = (Aa(1-hs)/2 + aa(1-s)) / w̄; q' = q_sel(1-nu) + (1-q_sel) mu.
     """
@@ -205,7 +207,7 @@ def test_x_linked_equilibrium_is_finite_and_a_stable_fixed_point(params):
 @given(rows(MU, S, H, F))
 def test_autosomal_approximations_are_finite_and_honest_where_in_range(params):
     """Where an approximation is flagged in range its value and relative error are finite,
-    relative_error = value / exact - 1 (the definition in infer.approximations), and the
+    relative_error = value / exact - 1 (the definition in infer.core.approximations), and the
     error is below twice the 10 % tolerance the flag promises (first-order estimate <= 10 %;
     second-order terms are smaller by the same factor -- derived)."""
     mu, s, h, F = params
@@ -225,7 +227,7 @@ def test_autosomal_approximations_are_finite_and_honest_where_in_range(params):
 @given(rows(MU, S, H, ALPHA))
 def test_x_linked_approximations_are_finite_and_honest_where_in_range(params):
     """As for the autosomal forms, against the exact q_male (Haldane 1935 3mu/s and the
-    rare-allele form of infer.approximations)."""
+    rare-allele form of infer.core.approximations)."""
     mu, s, h, alpha = params
     exact = balance.x_linked_balance(mu, s, h, 0.0, 0.0, alpha).q_male
     for name, approx in approximations.x_linked_approximations(mu, s, h, alpha).items():
@@ -257,7 +259,7 @@ STEP = st.floats(1e-3, 1.0)  # relative or absolute change, far above rounding
 @given(rows(MU, S, H, F, NU_OR_ZERO), STEP)
 def test_q_hat_rises_with_mu(params, step):
     """Derived (implicit function theorem): at the stable root G(q) = 0 with dG/dq > 0, and
-    dG/dmu = p[(1-F)hs q - 1] < 0 (G = p f + nu N of infer.balance, N free of mu), so
+    dG/dmu = p[(1-F)hs q - 1] < 0 (G = p f + nu N of infer.core.balance, N free of mu), so
     dq_hat/dmu = -(dG/dmu)/(dG/dq) > 0, with or without back mutation."""
     mu, s, h, F, nu = params
     low = balance.q_hat(mu, s, h, F, nu)

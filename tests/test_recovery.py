@@ -2,7 +2,7 @@
 truth in at least 90 of 100 replicates (slow; run in CI).
 
 Data are simulated here with numpy directly from the life cycle (the exact balance
-frequency from ``infer.balance``, itself checked against mpmath in test_balance.py), not
+frequency from ``infer.core.balance``, itself checked against mpmath in test_balance.py), not
 with the observation classes' own predictive draws. Every observation kind is checked on
 the exact grid posterior (the same posterior the sampler targets; the sampler's agreement
 with the grid is tested in test_estimate.py), and one two-parameter study is checked
@@ -14,11 +14,11 @@ import zlib
 import numpy as np
 import pytest
 
-from infer.balance import q_hat
-from infer.grid import grid_posterior
-from infer.model import Model
-from infer.sampling import SamplerSettings, run_to_convergence
-from infer.study import parse_study
+from infer.core.balance import q_hat
+from infer.inference.grid import grid_posterior
+from infer.model.posterior import Model
+from infer.inference.sampling import SamplerSettings, run_to_convergence
+from infer.files.study import parse_study
 
 REPLICATES = 100
 LOG_MU = {"prior": "log-uniform", "low": 1e-8, "high": 1e-2}

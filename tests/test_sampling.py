@@ -2,7 +2,7 @@
 
 import numpy as np
 
-from infer.sampling import SamplerSettings, run_to_convergence
+from infer.inference.sampling import SamplerSettings, run_to_convergence
 
 MEAN = np.array([1.0, -2.0])
 SD = np.array([0.5, 2.0])

@@ -1,8 +1,8 @@
-"""Wright–Fisher simulation (infer.simulate) and ``qhat simulate``.
+"""Wright–Fisher simulation (infer.core.wright_fisher) and ``qhat simulate``.
 
 Sources: the neutral Wright–Fisher martingale E[q_t] = q_0 and heterozygosity decay
 E[2q(1-q)]_t = (1 - 1/(2N))^t · 2q_0(1-q_0) (Wright 1931, Genetics 16:97; common practice);
-Wright's stationary density (infer.drift, itself checked against closed forms and mpmath).
+Wright's stationary density (infer.core.drift.stationary, itself checked against closed forms and mpmath).
 """
 
 from __future__ import annotations
@@ -14,15 +14,15 @@ import sys
 import numpy as np
 import pytest
 
-from infer import drift
+from infer.core.drift import stationary as drift
 from infer.errors import InputError
-from infer.simulate import next_generation_expected, wright_fisher
+from infer.core.wright_fisher import next_generation_expected, wright_fisher
 
 
 def test_expected_map_has_the_deterministic_equilibrium_as_fixed_point():
-    """The life cycle's expected map leaves infer.balance.q_hat unchanged (DESIGN.md §2: the
+    """The life cycle's expected map leaves infer.core.balance.q_hat unchanged (DESIGN.md §2: the
     same selection-then-mutation recursion defines q_hat)."""
-    from infer.balance import q_hat
+    from infer.core.balance import q_hat
 
     for mu, s, h, nu in [(1e-5, 0.1, 0.5, 0.0), (1e-4, 1.0, 0.0, 0.0), (1e-3, 0.05, 0.9, 1e-4)]:
         q = float(q_hat(mu, s, h, nu=nu))

@@ -11,9 +11,9 @@ import math
 import pytest
 
 from infer.errors import InputError
-from infer.observations import Affected, Fertility, Sporadic
-from infer.priors import Beta, Fixed, LogUniform, Uniform
-from infer.study import load_study, parse_study, study_document
+from infer.model.observations.kinds import Affected, Fertility, Sporadic
+from infer.model.priors.parsing import Beta, Fixed, LogUniform, Uniform
+from infer.files.study import load_study, parse_study, study_document
 
 GOOD = """\
 title = "Dominant disorder, Isle of Brannoch birth registry"

@@ -1,7 +1,7 @@
 """``qhat batch``: per-locus heterozygous selection (s_het) for many loci at once.
 
-Reads a loci CSV (columns in ``infer.batch_io``), computes every locus's posterior of
-s_het by exact quadrature (``infer.batch``), and writes a report folder: loci.csv,
+Reads a loci CSV (columns in ``infer.files.loci``), computes every locus's posterior of
+s_het by exact quadrature (``infer.batch.run``), and writes a report folder: loci.csv,
 summary.json and three PNG figures. ``--jobs N`` runs chunks of loci in N local
 processes; ``--scheduler ADDRESS`` on a dask.distributed cluster. The chunks, and so
 the results, are the same whichever way the work runs.
@@ -121,7 +121,7 @@ def _executor(args):
         from concurrent.futures import ProcessPoolExecutor
 
         context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["infer.batch", "scipy.special", "scipy.interpolate"])
+        context.set_forkserver_preload(["infer.batch.run", "scipy.special", "scipy.interpolate"])
         with ProcessPoolExecutor(max_workers=args.jobs, mp_context=context) as pool:
             yield lambda function, tasks: pool.map(function, tasks)
     else:
@@ -140,7 +140,7 @@ def _prior_curve(prior, settings):
 def _summary(args, table, result, flags, timings, mu_sigma):
     import numpy as np
 
-    from infer.batch_io import CAUTION
+    from infer.files.loci import CAUTION
 
     loci, settings = result.loci, result.settings
     counts = {key: {"count": int(np.sum((loci["flags"] & bit) > 0)), "meaning": meaning}
@@ -209,7 +209,8 @@ def run(args) -> int:
 
 def _run(args, out, started) -> int:
     """Read the loci, compute, write the report (inside ``terminate_as_interrupt``)."""
-    from infer import batch, batch_io
+    from infer.batch import run as batch
+    from infer.files import loci as batch_io
 
     table = batch_io.read_loci(args.loci, skip_bad_rows=args.skip_bad_rows)
     for skipped in table.skipped:

@@ -46,7 +46,7 @@ def _threshold(text: str) -> float:
 
 def run(args) -> int:
     """Run ``qhat check``."""
-    from infer.claims import load_claim
+    from infer.files.claim import load_claim
     from infer.reporting.folder import check_destination, terminate_as_interrupt
 
     threshold = _threshold(args.threshold)
@@ -55,7 +55,7 @@ def run(args) -> int:
     if out is not None:
         check_destination(out, args.force)
     with terminate_as_interrupt():
-        from infer.check import check_claim
+        from infer.check.run import check_claim
 
         result = check_claim(claim, threshold=threshold)
         if out is not None:
@@ -221,8 +221,8 @@ def balance_figure(result):
     from matplotlib.figure import Figure
     from scipy import special
 
-    from infer.check import PER_LOCUS_RANGE, PER_NUCLEOTIDE_RANGE, implied_quantities
-    from infer.state import State
+    from infer.check.run import PER_LOCUS_RANGE, PER_NUCLEOTIDE_RANGE, implied_quantities
+    from infer.model.balance_state import State
 
     claim = result.claim
     key, k, n, label, penetrance = _plotted_quantity(claim)

@@ -148,7 +148,8 @@ def compute(options: dict) -> dict:
     """Every reported quantity for one locus, as a JSON-ready dict (NaN -> None later)."""
     import numpy as np
 
-    from infer import approximations, balance
+    from infer.core import approximations
+    from infer.core import balance
 
     mu, s, h, F, nu = (options[k] for k in ("mu", "s", "h", "F", "nu"))
     penetrance = options["penetrance"]
@@ -201,11 +202,11 @@ def compute(options: dict) -> dict:
 
 
 def _stationary(options: dict) -> dict:
-    """Wright's stationary distribution via ``infer.drift`` (imported only here)."""
+    """Wright's stationary distribution via ``infer.core.drift.stationary`` (imported only here)."""
     from infer.errors import InputError
 
     try:
-        from infer import drift
+        from infer.core.drift import stationary as drift
     except ImportError:
         drift = None
     if drift is None or not hasattr(drift, "stationary_summary"):
@@ -296,7 +297,8 @@ def write_plot(options: dict, path: str) -> None:
     import matplotlib.pyplot as plt
     import numpy as np
 
-    from infer import approximations, balance
+    from infer.core import approximations
+    from infer.core import balance
 
     mu, s, F, nu = (options[k] for k in ("mu", "s", "F", "nu"))
     h = np.linspace(0.0, 1.0, 501)

@@ -62,7 +62,7 @@ def run(args) -> int:
 def _estimate_into_folder(args, plotter):
     """Read and check the study and the destination, sample, write the report folder."""
     from infer.reporting.folder import check_destination
-    from infer.study import load_study
+    from infer.files.study import load_study
 
     study = load_study(args.study)
     out = Path(args.out) if args.out else default_out(args.study)
@@ -70,7 +70,7 @@ def _estimate_into_folder(args, plotter):
         out.parent.mkdir(exist_ok=True)
     check_destination(out, args.force)
     show = progress_printer(args.quiet)
-    from infer.estimation import estimate
+    from infer.estimate.pipeline import estimate
     from infer.reporting.report import write_report
 
     result, timing = estimate(study, seed=args.seed, progress=show)

@@ -105,9 +105,9 @@ def run(args) -> int:
     _validate(args)
     import numpy as np
 
-    from infer import drift
+    from infer.core.drift import stationary as drift
     from infer.errors import InputError
-    from infer.simulate import wright_fisher
+    from infer.core.wright_fisher import wright_fisher
 
     seed = args.seed if args.seed is not None else int(np.random.SeedSequence().entropy % 2**63)
     try:
@@ -195,7 +195,7 @@ def figure(result, args, wright):
     import matplotlib.pyplot as plt
     import numpy as np
 
-    from infer import drift
+    from infer.core.drift import stationary as drift
 
     fig, (left, right) = plt.subplots(1, 2, figsize=(11, 4.2))
     shown = result.trajectories[: min(10, len(result.trajectories))]

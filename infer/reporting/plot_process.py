@@ -58,7 +58,7 @@ class PlotProcess:
         Returns
         -------
         dict of str to str, or None
-            Plot key -> file name, as :func:`infer.reporting.plots.write_plots` returns;
+            Plot key -> file name, as :func:`infer.reporting.plots.figures.write_plots` returns;
             None if the child could not draw them (the caller then draws them itself).
         """
         if self._process is None:
@@ -119,8 +119,8 @@ def _child() -> int:
         import matplotlib
 
         matplotlib.use("Agg")
-        import infer.results  # noqa: F401  (what unpickling the result needs, imported now)
-        from infer.reporting.plots import write_plots
+        import infer.estimate.results  # noqa: F401  (what unpickling the result needs, imported now)
+        from infer.reporting.plots.figures import write_plots
 
         _warm_up()
         payload = sys.stdin.buffer.read()

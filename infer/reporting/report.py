@@ -18,7 +18,7 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
 
     Parameters
     ----------
-    result : infer.results.EstimateResult
+    result : infer.estimate.results.EstimateResult
     out : pathlib.Path
         The report folder; refused if it exists, unless ``force``.
     timing : dict, optional
@@ -38,7 +38,7 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
         plots = plotter.write(result, folder) if plotter is not None else None
         drawn_by = "plot process"
         if plots is None:
-            from infer.reporting.plots import write_plots
+            from infer.reporting.plots.figures import write_plots
 
             plots = write_plots(result, folder)
             drawn_by = "this process" if plotter is None else (

@@ -1,0 +1,1 @@
+"""The batch job: many loci at once by exact one-dimensional quadrature."""

@@ -1,0 +1,1 @@
+"""The check job: a reviewer's consistency check of published numbers."""

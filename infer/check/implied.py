@@ -1,0 +1,80 @@
+"""Quantities a claim implies: frequencies, load, incidences and their intervals.
+
+:func:`implied_quantities` evaluates the exact deterministic balance row by row;
+:func:`drift_moments` gives Wright's stationary summary for the drift model; and
+:func:`implied_values` gathers both, with intervals under the claim's stated
+uncertainty, for :class:`~infer.check.run.CheckResult`.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from infer.core import balance
+from infer.files.claim import Claim
+from infer.model.observations.kinds import x_linked_daughter_genotypes
+from infer.model.balance_state import State
+
+__all__ = ["implied_quantities", "drift_moments", "implied_values"]
+
+
+def implied_quantities(claim: Claim, state: State) -> dict[str, np.ndarray]:
+    """Frequencies, load and incidence of each row of a deterministic state.
+
+    Keys: ``q_hat``, ``load``, ``carrier_frequency`` and ``incidence_<mode>``; X-linked
+    also ``q_male``, ``q_female``, ``load_male``, ``load_female``, ``new_mutation_share``.
+    """
+    p = state.params
+    if claim.inheritance == "x-linked":
+        b = state.balance
+        _, carriers, _ = x_linked_daughter_genotypes(state.q_male, state.q_female, p["F"])
+        return {"q_hat": state.q, "q_male": state.q_male, "q_female": state.q_female,
+                "load": np.asarray(b.load_male), "load_male": np.asarray(b.load_male),
+                "load_female": np.asarray(b.load_female),
+                "new_mutation_share": np.asarray(b.new_mutation_share),
+                "carrier_frequency": carriers,
+                "incidence_x-linked-male": state.q_male}
+    q = state.q
+    _, carriers, _ = balance.genotype_frequencies(q, p["F"])
+    return {"q_hat": q, "load": balance.load(q, p["s"], p["h"], p["F"]),
+            "carrier_frequency": carriers,
+            "incidence_dominant": balance.affected_fraction("dominant", q, p["F"]),
+            "incidence_recessive": balance.affected_fraction("recessive", q, p["F"])}
+
+
+def drift_moments(claim: Claim) -> dict:
+    """Wright's stationary mean, median, interval and the implied averages (F = 0)."""
+    from infer.core.drift import stationary as drift
+
+    v = claim.values
+    summary = drift.stationary_summary(v["Ne"], v["mu"], v["s"], v["h"], v["nu"],
+                                       claim.study.interval)
+    m = float(summary["mean"])
+    second = float(summary["sd"]) ** 2 + m * m  # E[x^2]
+    out = {k: float(val) for k, val in summary.items()}
+    out.update({"carrier_frequency": 2 * (m - second),
+                "incidence_dominant": 2 * m - second, "incidence_recessive": second,
+                "load": v["s"] * (2 * v["h"] * (m - second) + second)})
+    return out
+
+
+def implied_values(claim: Claim, state: State, sampled) -> dict:
+    """Implied quantities at the claim, their intervals over ``sampled`` draws if given."""
+    implied = {name: float(value[0]) for name, value in implied_quantities(claim, state).items()}
+    if claim.study.model == "drift":
+        implied["stationary"] = drift_moments(claim)
+    if claim.values["Ne"] < math.inf:
+        implied["four_Ne_q_hat"] = 4 * claim.values["Ne"] * implied["q_hat"]
+    if sampled is not None:
+        level = claim.study.interval
+        rows = sampled
+        implied["uncertainty"] = {"level": level, "draws": int(rows.n),
+                                  "no_equilibrium_share": float(np.mean(~rows.exists))}
+        for name, values in implied_quantities(claim, rows).items():
+            finite = np.asarray(values)[rows.exists]
+            if finite.size:
+                lower, upper = np.quantile(finite, [(1 - level) / 2, (1 + level) / 2])
+                implied["uncertainty"][name] = {"lower": float(lower), "upper": float(upper)}
+    return implied

@@ -1,0 +1,207 @@
+"""A reviewer's consistency check of published numbers (``qhat check``).
+
+:func:`check_claim` takes a validated :class:`~infer.files.claim.Claim` and returns a
+:class:`CheckResult`: a list of :class:`Finding` (severity ``"error"``, ``"warning"`` or
+``"note"``, a code, one sentence with the numbers, and the computation behind it), the
+quantities the claimed parameters imply, and ``consistent`` (no error-level finding).
+Nothing here prints or touches files.
+
+Findings (``code``: what raises it):
+
+* ``no-equilibrium``: the claimed parameters have no stable interior balance.
+* ``observation-mismatch`` / ``observation-agrees``: each reported observation against
+  the value the claim implies, with the two-sided posterior predictive p-value of the
+  observed statistic under the claim (its stated uncertainty included): error below
+  ``threshold``, warning below 5 x threshold. Tail probabilities are exact binomial (or
+  log-normal) sums averaged over draws from the claim, so p-values far below 1/draws are
+  resolved; other statistics use predictive draws and ``infer.estimate.results.two_sided_p_value``
+  (Gelman, Meng & Stern 1996, Statistica Sinica 6:733).
+* ``statement-mismatch`` / ``statement-agrees``: a stated incidence, carrier frequency,
+  allele frequency or load against the value the claimed parameters imply.
+* ``claimed-outside-implied`` / ``implied-interval`` / ``no-implied-value``: the interval
+  of mu, s and h the reported data imply with the other parameters held at their claimed
+  values (exact grid posterior under wide priors, ``infer.files.claim.WIDE_PRIORS``), and the
+  posterior mass where the density (on the sampling scale) is no higher than at the
+  claimed value -- the evidence value of Pereira & Stern (1999, Entropy 1:99, "Evidence
+  and credibility: full Bayesian significance test for precise hypotheses"; from memory).
+  It behaves at the ends of a support (s = 1, h = 0), where an equal-tailed test cannot.
+* ``approximation-out-of-range`` / ``approximation-in-range``,
+  ``frequency-too-high-for-approximation``, ``drift-dominates``: the formula the authors
+  used against the exact root; the deterministic balance where 4Ne q_hat is small.
+* ``mutation-rate-outside-measured``, ``implied-mutation-rate-outside-measured``: mu
+  (claimed, or implied by the data) against the rates measured (see the ranges below).
+* ``possible-heterozygote-advantage``, ``possible-drift-or-founder-effect``,
+  ``possible-ascertainment``, ``possible-non-equilibrium``: the classic alternative
+  explanations, as notes, when balance with a measured mutation rate cannot explain
+  the data.
+
+The findings are made in :mod:`infer.check.predictive` (observations, statements),
+:mod:`infer.check.intervals` (intervals implied by the data) and
+:mod:`infer.check.trade` (approximations, drift, measured rates, alternatives); the
+implied quantities in :mod:`infer.check.implied`. Everything is importable from here.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import special
+
+from infer.check.findings import SEVERITIES, Finding, claimed_text
+from infer.check.implied import implied_quantities, implied_values
+from infer.check.intervals import implied_intervals
+from infer.check.predictive import observation_finding, statement_findings
+from infer.check.trade import (
+    PER_LOCUS_RANGE,
+    PER_NUCLEOTIDE_RANGE,
+    TRADE_MARGIN,
+    alternative_explanations,
+    approximation_findings,
+    drift_findings,
+    trade_findings,
+)
+from infer.files.claim import Claim
+from infer.model.priors.parsing import SUPPORT
+from infer.model.balance_state import State
+
+# public constants of infer.check.run, now kept beside the code that uses them
+from infer.check.intervals import DRIFT_GRID_POINTS  # noqa: F401
+from infer.check.predictive import DRIFT_TAIL_TERMS, SIMULATED_DRAWS  # noqa: F401
+from infer.check.trade import (  # noqa: F401
+    DRIFT_ERROR,
+    DRIFT_WARNING,
+    NUCLEOTIDE_MARGIN,
+    RARE_ERROR,
+    RARE_WARNING,
+    SINGLE_SITE_RATE,
+)
+
+__all__ = [
+    "Finding",
+    "CheckResult",
+    "check_claim",
+    "implied_quantities",
+    "PER_LOCUS_RANGE",
+    "PER_NUCLEOTIDE_RANGE",
+    "TRADE_MARGIN",
+    "SEVERITIES",
+]
+
+#: draws from the claim's stated uncertainty
+CLAIM_DRAWS = 4000
+_Z975 = 1.959963984540054
+
+
+@dataclass
+class CheckResult:
+    """Everything ``qhat check`` renders.
+
+    Attributes
+    ----------
+    claim : infer.files.claim.Claim
+    consistent : bool
+        True when no finding is an error.
+    findings : list of Finding
+        Errors first, then warnings, then notes (each in the order found).
+    implied : dict
+        Quantities the claim implies (``q_hat``, ``load``, incidences, ...), their
+        intervals under the claim's uncertainty, each observation's comparison and the
+        parameter intervals implied by the data (``from_data``).
+    threshold : float
+        The p-value below which a finding is an error.
+    """
+
+    claim: Claim
+    consistent: bool
+    findings: list[Finding]
+    implied: dict
+    threshold: float
+
+    def as_dict(self) -> dict:
+        """``{consistent, findings, implied}`` for ``--json``."""
+        return {"consistent": self.consistent,
+                "findings": [f.as_dict() for f in self.findings],
+                "implied": self.implied}
+
+    def count(self, severity: str) -> int:
+        """Number of findings of one severity."""
+        return sum(f.severity == severity for f in self.findings)
+
+
+def check_claim(claim: Claim, *, threshold: float = 0.01, draws: int = CLAIM_DRAWS) -> CheckResult:
+    """Check whether a paper's numbers fit together under mutation-selection balance.
+
+    Parameters
+    ----------
+    claim : infer.files.claim.Claim
+        A validated claim (:func:`infer.files.claim.load_claim`).
+    threshold : float, optional
+        Predictive p-values and evidence values below it are errors (default 0.01).
+    draws : int, optional
+        Draws from the claim's stated uncertainty (used when it gives intervals).
+
+    Returns
+    -------
+    CheckResult
+    """
+    if not 0.0 < threshold < 1.0:
+        raise ValueError("threshold must be in (0, 1)")
+    rng = np.random.default_rng(claim.seed)
+    point = {k: np.array([v]) for k, v in claim.values.items()}
+    sampled = _claim_draws(claim, rng, draws) if claim.intervals else None
+    findings: list[Finding] = []
+    with np.errstate(all="ignore"):
+        state = State.deterministic(point, claim.inheritance)
+        rows = state if sampled is None else State.deterministic(sampled, claim.inheritance)
+        implied = implied_values(claim, state, rows if sampled is not None else None)
+        if not bool(state.exists[0]):
+            findings.append(Finding(
+                "error", "no-equilibrium",
+                f"The claimed parameters ({claimed_text(claim, ('mu', 's', 'h'))}) have no "
+                "stable mutation-selection balance: mutation overwhelms selection.",
+                {"parameters": claim.values}))
+        implied["observations"] = []
+        for index, observation in enumerate(claim.study.observations, start=1):
+            findings.append(observation_finding(claim, index, observation, rows,
+                                                sampled is not None, rng, threshold, implied))
+        findings += statement_findings(claim, implied, threshold)
+        from_data, data_findings = implied_intervals(claim, threshold)
+        implied["from_data"] = from_data
+        findings += data_findings
+        findings += approximation_findings(claim, state, implied)
+        findings += drift_findings(claim, state, implied)
+        findings += trade_findings(claim, from_data)
+        findings += alternative_explanations(findings, implied)
+    order = {s: i for i, s in enumerate(SEVERITIES)}
+    findings.sort(key=lambda f: order[f.severity])
+    consistent = not any(f.severity == "error" for f in findings)
+    return CheckResult(claim, consistent, findings, implied, threshold)
+
+
+def _claim_draws(claim: Claim, rng, n: int) -> dict[str, np.ndarray]:
+    """Draws from the claim: log-normal (mu, Ne, alpha) or normal (the rest), truncated.
+
+    The authors' (lower, upper) is read as a central 95 % interval around the claimed
+    value: sigma = (g(upper) - g(lower)) / (2 x 1.96) with g = log or identity.
+    """
+    out = {k: np.full(n, v) for k, v in claim.values.items()}
+    for name, (lower, upper) in claim.intervals.items():
+        value = claim.values[name]
+        low, high = SUPPORT[name]
+        if name in ("mu", "Ne", "alpha"):
+            sigma = (math.log(upper) - math.log(lower)) / (2 * _Z975)
+            b = (math.log(high) - math.log(value)) / sigma if high < np.inf else np.inf
+            out[name] = value * np.exp(sigma * _truncated_normal(rng, n, -np.inf, b))
+        else:
+            sd = (upper - lower) / (2 * _Z975)
+            a, b = (low - value) / sd, (high - value) / sd
+            out[name] = np.clip(value + sd * _truncated_normal(rng, n, a, b), low, high)
+    return out
+
+
+def _truncated_normal(rng, n: int, a: float, b: float) -> np.ndarray:
+    """Standard normal draws truncated to [a, b], by the inverse distribution function."""
+    lo, hi = special.ndtr(a), special.ndtr(b)
+    return special.ndtri(lo + rng.random(n) * (hi - lo))

@@ -1,0 +1,1 @@
+"""Pure maths on numpy arrays: equilibria, approximations, supports, drift, Wright-Fisher."""

@@ -1,0 +1,1 @@
+"""Wright's stationary distribution under drift and its sampling integrals."""

@@ -1,0 +1,306 @@
+"""Log Z(A, B) = log ∫_0^1 x^(A-1)(1-x)^(B-1) exp(-c·S(x)) dx for arrays of rows.
+
+The quadrature behind :mod:`infer.core.drift.stationary` (its docstring gives the method): the analytic
+end pieces, the peak and range of the interior integrand in y = logit x, its
+Gauss–Legendre panels, and their sum. Rows are flat arrays of (A, B, c, h); nothing here
+validates input.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+_GL_T, _GL_W = np.polynomial.legendre.leggauss(10)
+_PEAK_TEMPLATE = np.array([-10, -6, -3, -1.5, 0, 1.5, 3, 6, 10.0])
+_MAX_PEAK_SCALE = 0.5
+_NEGLIGIBLE = 40.0
+_CHUNK_NODES = 1 << 16
+_COARSE_WIDTH = 2.0
+_END_EPS = 0.1
+_SERIES_TERMS = 12
+_PROBES = 32
+_NEWTON_STEPS = 40
+_PROBE_T = np.linspace(0, 1, _PROBES)
+_SERIES_J = np.arange(_SERIES_TERMS + 1.0)[:, None]
+# m_(k+1) = Σ weights·(m_(k-2), m_(k-1), m_k) for k = 1 .. terms-1 (see _end_series_sum)
+_SERIES_INV = 1 / (_SERIES_J[1:-1, :, None] + 1)
+_SERIES_K_INV = _SERIES_J[1:-1] * _SERIES_INV[:, :, 0]
+
+
+# ---------------------------------------------------------------- end pieces
+def _end_width(B, c, h):
+    """x0 of the analytic end piece: keeps |ℓ(x)| ≤ ~_END_EPS on [0, x0]."""
+    return _END_EPS / (np.abs(B - 1) + np.abs(c) * (2 * np.abs(h) + np.abs(1 - 2 * h)) + 1)
+
+
+def _end_series_sum(A, B, c, h, x0):
+    """Σ_j m_j/(A+j), so that ∫_0^x0 x^(A-1)(1-x)^(B-1)e^(-cS) dx = x0^A · sum.
+
+    m(u) = Σ_j m_j u^j = exp(ℓ(x0·u)) solves (1 - x0·u)·m' = (q0 + q1·u + q2·u²)·m, since
+    (1-x)·ℓ'(x) = -(B-1) - (1-x)·c·S'(x) is quadratic: q0 = -x0(B-1+2hc),
+    q1 = (6h-2)c·x0², q2 = 2(1-2h)c·x0³. Comparing coefficients of u^k,
+    m_(k+1) = [q2·m_(k-2) + q1·m_(k-1) + (k·x0 + q0)·m_k]/(k+1), m_0 = 1.
+    """
+    size = A.size
+    chunk = max(1, _CHUNK_NODES // (3 * _SERIES_TERMS))
+    if size > chunk:  # in row chunks that stay in cache
+        out = np.empty(size)
+        for start in range(0, size, chunk):
+            r = slice(start, start + chunk)
+            out[r] = _end_series_sum(A[r], B[r], c[r], h[r], x0[r])
+        return out
+    cx2 = c * x0 * x0
+    q = np.empty((3, size))
+    np.multiply(2 * (1 - 2 * h) * x0, cx2, out=q[0])
+    np.multiply(6 * h - 2, cx2, out=q[1])
+    np.multiply(-x0, B - 1 + 2 * h * c, out=q[2])
+    weights = q * _SERIES_INV
+    weights[:, 2] += _SERIES_K_INV * x0
+    m = np.empty((_SERIES_TERMS + 2, size))  # m[j + 1] = m_j, m[0] = m_(-1) = 0
+    m[0] = 0.0
+    m[1] = 1.0
+    m[2] = q[2]
+    for k in range(1, _SERIES_TERMS):
+        np.multiply(weights[k - 1], m[k - 1 : k + 2], out=q)
+        np.add.reduce(q, axis=0, out=m[k + 2])
+    terms = m[1:]
+    terms /= A + _SERIES_J
+    return np.add.reduce(terms, axis=0)
+
+
+# ---------------------------------------------------------------- interior
+def _coefficients(A, B, c, h):
+    """Per-row constants of L and its slopes: (A, -B, A+B, 1-2h, 2h, c)."""
+    return A, -B, A + B, 1 - 2 * h, 2 * h, c
+
+
+def _log_f(y, A, B, c, h):
+    """L(y) = log of the integrand in y = logit x (dx = x(1-x) dy)."""
+    return _log_f_rows(y, _coefficients(A, B, c, h))
+
+
+def _log_f_rows(y, coefficients):
+    """L(y) from the constants of :func:`_coefficients` (broadcast against y).
+
+    With e = exp(-|y|): log x = min(y, 0) - log(1+e), log(1-x) = min(-y, 0) - log(1+e).
+    """
+    A, minus_B, A_plus_B, k1, h2, c = coefficients
+    positive = y >= 0
+    e = np.abs(y)
+    np.negative(e, out=e)
+    np.exp(e, out=e)
+    d = e + 1
+    x = np.divide(e, d)
+    np.divide(1.0, d, out=x, where=positive)
+    out = A * y
+    np.multiply(minus_B, y, out=out, where=positive)
+    log_d = np.log(d, out=d)
+    log_d *= A_plus_B
+    out -= log_d
+    s = k1 * x
+    s += h2
+    cx = c * x
+    cx *= s
+    out -= cx
+    return out
+
+
+class _Slopes:
+    """L'(y) and L''(y) of fixed rows, from the constants of :func:`_coefficients`."""
+
+    def __init__(self, coefficients):
+        self.A, minus_B, A_plus_B, k1, self.h2, self.c = coefficients
+        self.B, self.k2, self.minus_ab = -minus_B, 2 * k1, -A_plus_B
+
+    def __call__(self, y):
+        x, x1 = special.expit(y), special.expit(-y)
+        v = x * x1
+        dS = self.h2 + self.k2 * x
+        d1 = self.A * x1 - self.B * x - self.c * dS * v
+        d2 = self.minus_ab * v - self.c * (self.k2 * v**2 + dS * v * (x1 - x))
+        return d1, d2
+
+
+def _peak(y_lo, y_hi, coefficients):
+    """Per-row maximiser of L on [y_lo, y_hi], its scale, and the range that matters.
+
+    The range [t_lo, t_hi] is bounded by the outermost probes within _NEGLIGIBLE of the
+    maximum (plus one probe spacing); outside it the integrand is below e^-40 of its peak.
+    Call with division warnings silenced (Newton steps where L'' = 0 are discarded).
+    """
+    rows = y_lo.size
+    probes = np.multiply.outer(_PROBE_T, y_hi - y_lo)  # (probes, rows)
+    probes += y_lo
+    chunk = max(1, _CHUNK_NODES // _PROBES)
+    if rows <= chunk:
+        values = _log_f_rows(probes, coefficients)
+    else:  # in row chunks that stay in cache
+        values = np.empty_like(probes)
+        for start in range(0, rows, chunk):
+            r = slice(start, start + chunk)
+            values[:, r] = _log_f_rows(probes[:, r], [v[r] for v in coefficients])
+    flat, base = probes.ravel(), np.arange(rows)
+    best = values.argmax(axis=0)
+    at = best * rows + base
+    lo = flat[at - rows * (best > 0)]
+    hi = flat[at + rows * (best < _PROBES - 1)]
+    y = flat[at]
+    slopes = _Slopes(coefficients)
+    for _ in range(_NEWTON_STEPS):
+        # the template only needs y* to a small fraction of the peak's scale
+        d1, d2 = slopes(y)
+        tolerance = 0.01 * np.minimum(1 / np.sqrt(np.abs(d2) + 1e-300), _MAX_PEAK_SCALE)
+        rising = d1 > 0
+        lo = np.where(rising, y, lo)
+        hi = np.where(rising, hi, y)
+        step = y - d1 / d2
+        ok = (d2 < 0) & (step > lo) & (step < hi)
+        y_new = np.where(ok, step, 0.5 * (lo + hi))
+        done = (np.abs(y_new - y) <= tolerance) | (hi - lo <= tolerance)
+        y = y_new
+        if done.all():
+            break
+    d1, d2 = slopes(y)
+    scale = 1 / np.sqrt(np.maximum(-d2, 0) + d1**2 + 1e-300)
+    top = np.maximum(_log_f_rows(y, coefficients), np.maximum.reduce(values, axis=0))
+    keep = values >= top - _NEGLIGIBLE
+    first = keep.argmax(axis=0)
+    last = _PROBES - 1 - keep[::-1].argmax(axis=0)
+    t_lo = np.minimum(flat[(first - (first > 0)) * rows + base], lo)
+    t_hi = np.maximum(flat[(last + (last < _PROBES - 1)) * rows + base], hi)
+    return y, np.minimum(scale, _MAX_PEAK_SCALE), t_lo, t_hi
+
+
+_UNIT_STEPS = {}
+
+
+def _panels(y_lo, y_hi, y_peak, width):
+    """Panels (left, right), each (rows, P): coarse | peak template | coarse.
+
+    Panels of zero width (template clipped at the range ends) are dropped and each row
+    is padded at its end with zero-width panels at y_hi, so P is the largest useful count.
+    """
+    rows, size = y_lo.size, _PEAK_TEMPLATE.size
+    template = width[:, None] * _PEAK_TEMPLATE
+    template += y_peak[:, None]
+    np.maximum(template, y_lo[:, None], out=template)
+    np.minimum(template, y_hi[:, None], out=template)
+    p_lo, p_hi = template[:, 0], template[:, -1]
+    left_span, right_span = p_lo - y_lo, y_hi - p_hi
+    span = max(np.maximum.reduce(left_span, initial=0), np.maximum.reduce(right_span, initial=0))
+    n = max(1, int(np.ceil(span / _COARSE_WIDTH)))
+    if n not in _UNIT_STEPS:
+        _UNIT_STEPS[n] = np.linspace(0, 1, n + 1)
+    t = _UNIT_STEPS[n]
+    edges = np.empty((rows, 2 * n + size))
+    left, right = edges[:, :n], edges[:, n + size :]
+    np.multiply(left_span[:, None], t[:-1], out=left)
+    left += y_lo[:, None]
+    edges[:, n : n + size] = template
+    np.multiply(right_span[:, None], t[1:], out=right)
+    right += p_hi[:, None]
+    lo, hi = edges[:, :-1], edges[:, 1:]
+    wide = hi > lo
+    counts = np.add.reduce(wide, axis=1)
+    used = max(1, int(np.maximum.reduce(counts, initial=0)))
+    if used == lo.shape[1]:
+        return lo, hi
+    # each row's panels of nonzero width, in order, then the zero-width padding
+    starts = counts.cumsum() - counts
+    offsets = np.arange(0, rows * used, used) - starts
+    slots = np.arange(counts.sum()) + offsets.repeat(counts)
+    new_lo = y_hi[:, None].repeat(used, axis=1)
+    new_hi = new_lo.copy()
+    new_lo.ravel()[slots] = lo[wide]
+    new_hi.ravel()[slots] = hi[wide]
+    return new_lo, new_hi
+
+
+def _nodes(panels):
+    """Gauss–Legendre nodes and weights (rows, n·P) of the panels (left, right)."""
+    lo, hi = panels
+    mid, half = 0.5 * (hi + lo), 0.5 * (hi - lo)
+    nodes = mid[:, :, None] + half[:, :, None] * _GL_T
+    weights = half[:, :, None] * _GL_W
+    return nodes.reshape(len(lo), -1), weights.reshape(len(lo), -1)
+
+
+def _log_sum(log_values, weights):
+    """Log Σ w·exp(v) along axis 1, stable."""
+    top = np.max(log_values, axis=1)
+    top = np.where(np.isfinite(top), top, 0.0)
+    with np.errstate(divide="ignore"):
+        return top + np.log(np.sum(weights * np.exp(log_values - top[:, None]), axis=1))
+
+
+def _integrate(panels, coefficients):
+    """Log ∫ exp(L(y)) dy over the panels (left, right), in row chunks that stay in cache.
+
+    Nodes are laid out (n, rows·P), node i of every panel in one contiguous row, so each
+    operation runs over rows·P elements with per-panel coefficients; the weights
+    half-width × w_i are applied as one matrix-vector product and never stored.
+    """
+    lo, hi = panels
+    rows, count = lo.shape
+    out, tops = np.empty(rows), np.empty(rows)
+    chunk = max(1, _CHUNK_NODES // (count * _GL_T.size))
+    for start in range(0, rows, chunk):
+        r = slice(start, start + chunk)
+        left, right = lo[r], hi[r]
+        mid, half = 0.5 * (right + left).ravel(), 0.5 * (right - left).ravel()
+        nodes = np.multiply.outer(_GL_T, half)
+        nodes += mid
+        values = _log_f_rows(nodes, [v[r].repeat(count) for v in coefficients])
+        top = np.maximum.reduce(np.maximum.reduce(values, axis=0).reshape(left.shape), axis=1)
+        top[~np.isfinite(top)] = 0.0
+        tops[r] = top
+        values -= top.repeat(count)
+        np.exp(values, out=values)
+        sums = _GL_W @ values
+        sums *= half
+        out[r] = np.add.reduce(sums.reshape(left.shape), axis=1)
+    with np.errstate(divide="ignore"):
+        np.log(out, out=out)
+    out += tops
+    return out
+
+
+class _Layout:
+    """The pieces of Z(A, B) for a set of rows: end widths, peak, interior panels."""
+
+    def __init__(self, A, B, c, h):
+        self.A, self.B, self.c, self.h = A, B, c, h
+        rows = A.size
+        # left end (rows 0) and, by x = 1 - z, right end (rows 1) in one pass
+        AB = np.concatenate((A, B)).reshape(2, rows)
+        BA = AB[::-1]
+        cc = np.concatenate((c, -c)).reshape(2, rows)
+        hh = np.concatenate((h, 1 - h)).reshape(2, rows)
+        widths = _end_width(BA, cc, hh)
+        log_w, log_1w = np.log(widths), np.log1p(-widths)
+        self.x0, self.z0 = widths
+        self.y_lo, self.y_hi = log_w[0] - log_1w[0], log_1w[1] - log_w[1]
+        self.coefficients = _coefficients(A, B, c, h)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            y_peak, width, t_lo, t_hi = _peak(self.y_lo, self.y_hi, self.coefficients)
+            self.panels = _panels(t_lo, t_hi, y_peak, width)
+            sums = _end_series_sum(AB.ravel(), BA.ravel(), cc.ravel(), hh.ravel(), widths.ravel())
+            ends = AB * log_w
+            ends += np.log(sums).reshape(2, rows)
+        self.log_left, self.log_right = ends[0], ends[1] - c
+
+    def log_interior(self, upper=None):
+        """Log ∫ over [y_lo, min(upper, y_hi)] (all of the interior when upper is None)."""
+        panels = self.panels
+        if upper is not None:
+            panels = tuple(np.minimum(p, upper[:, None]) for p in panels)
+        return _integrate(panels, self.coefficients)
+
+    def log_total(self):
+        return np.logaddexp(np.logaddexp(self.log_left, self.log_interior()), self.log_right)
+
+
+def _log_z(A, B, c, h):
+    """Log Z(A, B) = log ∫_0^1 x^(A-1)(1-x)^(B-1) exp(-c·S(x)) dx for flat rows."""
+    return _Layout(A, B, c, h).log_total()

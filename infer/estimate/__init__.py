@@ -1,0 +1,1 @@
+"""The estimate job: a study in, a typed result out."""

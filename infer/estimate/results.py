@@ -1,0 +1,303 @@
+"""Turn a converged sampling run into the results a report renders.
+
+Computed once here; text, JSON, Markdown and plots only read them
+(``infer.reporting``). Everything is a pure function of the run and the generator.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from infer.model.priors.parsing import Fixed
+from infer.inference.sampling import SamplingRun
+
+__all__ = [
+    "EstimateResult",
+    "summarise",
+    "two_sided_p_value",
+    "central_quantiles",
+    "contraction",
+    "identifiability",
+]
+
+#: prior draws used for prior summaries, contraction and the prior predictive
+PRIOR_DRAWS = 20_000
+#: posterior draws (at most) used for derived quantities and predictive checks
+DERIVED_DRAWS = 20_000
+DRIFT_DERIVED_DRAWS = 2_000
+
+
+@dataclass
+class EstimateResult:
+    """Everything an estimate report shows (see DEVELOPERS.md for the array shapes)."""
+
+    study: Any
+    free: list[str]
+    posterior: dict[str, np.ndarray]
+    prior: dict[str, np.ndarray]
+    derived: dict[str, np.ndarray]
+    trace_walkers: dict[str, np.ndarray]
+    burn_in: int
+    log_likelihood: np.ndarray
+    replicated: list[np.ndarray]
+    summary: dict
+    grid: Any = None
+    log_prob: Any = None
+    notes: list[str] = field(default_factory=list)
+
+
+def two_sided_p_value(replicated: np.ndarray, observed: float) -> float:
+    """Two-sided posterior predictive p-value, ``min(1, 2 min(P(T >= t), P(T <= t)))``.
+
+    Counting ties on both sides keeps a discrete statistic's p-value conservative
+    (Gelman, Meng & Stern 1996, Statistica Sinica 6:733, for the posterior predictive
+    p-value; the two-sided form is common practice).
+    """
+    rep = np.asarray(replicated, dtype=float).ravel()
+    rep = rep[np.isfinite(rep)]
+    if rep.size == 0:
+        return float("nan")
+    upper = np.mean(rep >= observed)
+    lower = np.mean(rep <= observed)
+    return float(min(1.0, 2.0 * min(upper, lower)))
+
+
+def contraction(posterior_scaled: np.ndarray, prior_scaled: np.ndarray) -> float:
+    """``1 - sd(posterior) / sd(prior)`` on the sampling scale (DESIGN.md section 5)."""
+    prior_sd = float(np.std(prior_scaled))
+    if not np.isfinite(prior_sd) or prior_sd == 0:
+        return float("nan")
+    return float(1.0 - np.std(posterior_scaled) / prior_sd)
+
+
+def central_quantiles(draws: np.ndarray, interval: float) -> tuple[float, float, float]:
+    """Median and central ``interval`` of the finite draws: (median, lower, upper)."""
+    flat = np.asarray(draws, dtype=float).ravel()
+    flat = flat[np.isfinite(flat)]
+    if flat.size == 0:
+        return (float("nan"),) * 3
+    tail = (1.0 - interval) / 2.0
+    med, lo, hi = np.quantile(flat, [0.5, tail, 1.0 - tail])
+    return float(med), float(lo), float(hi)
+
+
+def _log10(x):
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.log10(np.asarray(x, dtype=float))
+
+
+def identifiability(free: list[str], posterior: dict, prior: dict, parameters_summary: dict,
+                    frequency_only: bool, inheritance: str,
+                    recessive: bool = False) -> list[str]:
+    """Plain statements of what the data inform and what the prior decides.
+
+    A combination of parameters (on the log10 scale) is said to be identified when its
+    contraction is high while its parts' contractions stay low: the data then fix the
+    product, not the factors. This is the classic situation of frequency data alone,
+    which pin down q_hat ~ mu/(hs) (or mu/s for a complete recessive) but not mu, s and
+    h separately.
+    """
+    statements = []
+    informed = [n for n in free if parameters_summary[n]["contraction"] >= 0.5]
+    weak = [n for n in free if 0.1 <= parameters_summary[n]["contraction"] < 0.5]
+    prior_decides = [n for n in free if not parameters_summary[n]["contraction"] >= 0.1]
+    if informed:
+        statements.append("The data inform " + ", ".join(informed) +
+                          " (posterior sd less than half the prior sd).")
+    if weak:
+        statements.append("The data inform " + ", ".join(weak) +
+                          " only weakly (contraction between 0.1 and 0.5).")
+    if prior_decides:
+        its = "its interval" if len(prior_decides) == 1 else "their intervals"
+        statements.append("The prior, not the data, decides " + ", ".join(prior_decides) +
+                          f": read {its} as the prior's.")
+    combos = []
+    if {"mu", "s"} <= set(free) or ({"mu", "h"} <= set(free)):
+        names = [n for n in ("mu", "s", "h") if n in free]
+        signs = {"mu": 1.0, "s": -1.0, "h": -1.0}
+        label = "mu/(h*s)" if "h" in names else "mu/s"
+        if "h" in names and "s" not in names:
+            label = "mu/h"
+        combos.append((label, names, signs))
+        if "h" in names and "s" in names:
+            combos.append(("mu/s", ["mu", "s"], signs))
+    for label, names, signs in combos:
+        post = sum(signs[n] * _log10(posterior[n]).ravel() for n in names)
+        pri = sum(signs[n] * _log10(prior[n]).ravel() for n in names)
+        post, pri = post[np.isfinite(post)], pri[np.isfinite(pri)]
+        if post.size < 10 or pri.size < 10:
+            continue
+        c = contraction(post, pri)
+        parts = max(parameters_summary[n]["contraction"] for n in names)
+        if c >= 0.5 and c - parts >= 0.2:
+            statements.append(
+                f"The data identify the combination {label} (contraction {c:.2f} on the log10 "
+                f"scale) far better than its parts (at most {parts:.2f}): they fix the "
+                "product, not the factors."
+            )
+            break
+    if frequency_only:
+        target = "mu/s" if inheritance == "x-linked" or recessive else "mu/(h*s)"
+        statements.append(
+            "Only frequency data (counts or affected births) were given: under balance they "
+            f"identify at most {target} (the equilibrium frequency), not mu, s and h "
+            "separately; separate values come from the priors."
+        )
+    return statements
+
+
+def derived_quantities(model, params: dict, state) -> dict[str, np.ndarray]:
+    """Equilibrium frequency, load and affected fractions for each row of ``params``."""
+    from infer.core.balance import affected_fraction
+
+    out = {"q_hat": np.asarray(state.q, dtype=float)}
+    penetrance = 1.0
+    F = params["F"]
+    if model.inheritance == "x-linked":
+        out["q_male"] = np.asarray(state.q_male, dtype=float)
+        out["q_female"] = np.asarray(state.q_female, dtype=float)
+        out["load_male"] = np.asarray(state.balance.load_male, dtype=float)
+        out["load_female"] = np.asarray(state.balance.load_female, dtype=float)
+        out["affected_male"] = affected_fraction("x-linked-male", state.q_male, F, penetrance)
+    else:
+        out["load"] = np.asarray(state.balance.load, dtype=float)
+        out["affected_dominant"] = affected_fraction("dominant", state.q, F, penetrance)
+        out["affected_recessive"] = affected_fraction("recessive", state.q, F, penetrance)
+    if model.drift:
+        from infer.core.drift import stationary as drift
+
+        stats = drift.stationary_summary(params["Ne"], params["mu"], params["s"], params["h"],
+                                         params["nu"], interval=0.95)
+        out["q_mean_drift"] = np.asarray(stats["mean"], dtype=float)
+        out["q_median_drift"] = np.asarray(stats["median"], dtype=float)
+    return out
+
+
+def _subsample(n_total: int, n_max: int, rng: np.random.Generator) -> np.ndarray:
+    if n_total <= n_max:
+        return np.arange(n_total)
+    return np.sort(rng.choice(n_total, size=n_max, replace=False))
+
+
+def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
+              seed: int | None = None) -> EstimateResult:
+    """Compute posterior summaries, derived quantities and predictive checks.
+
+    Parameters
+    ----------
+    model : infer.model.posterior.Model
+    run : SamplingRun
+    rng : numpy.random.Generator
+        Used for prior draws, subsampling and predictive replicates.
+    grid : GridPosterior, optional
+        The exact cross-check, when computed.
+    seed : int, optional
+        Recorded in the summary.
+    """
+    study = model.study
+    interval = study.interval
+    chains, draws, _ = run.z.shape
+    flat_z = run.z.reshape(-1, model.ndim)
+    params, _ = model.to_parameters(flat_z)
+    posterior = {n: params[n].reshape(chains, draws) for n in model.free}
+    prior = {n: v[None, :] for n, v in model.prior_draws(rng, PRIOR_DRAWS).items()}
+
+    parameters = {}
+    for j, name in enumerate(model.free):
+        p = study.parameters[name]
+        med, lo, hi = central_quantiles(posterior[name], interval)
+        plo, phi = (float(v) for v in p.quantile(np.array([(1 - interval) / 2,
+                                                           1 - (1 - interval) / 2])))
+        parameters[name] = {
+            "median": med, "mean": float(np.mean(posterior[name])),
+            "sd": float(np.std(posterior[name])), "lower": lo, "upper": hi,
+            "ess_bulk": float(run.ess_bulk[j]), "ess_tail": float(run.ess_tail[j]),
+            "r_hat": float(run.r_hat[j]), "prior_lower": plo, "prior_upper": phi,
+            "contraction": contraction(p.sampling_scale(posterior[name]),
+                                       p.sampling_scale(prior[name])),
+            "fixed": False, "prior": p.describe(), "scale": p.sampling_scale_name,
+            "defaulted": name in study.defaulted,
+        }
+    for name, p in study.parameters.items():
+        if isinstance(p, Fixed):
+            v = float(p.value)
+            parameters[name] = {
+                "median": v, "mean": v, "sd": 0.0, "lower": v, "upper": v,
+                "ess_bulk": None, "ess_tail": None, "r_hat": None, "prior_lower": v,
+                "prior_upper": v, "contraction": None, "fixed": True, "prior": p.describe(),
+                "scale": "linear", "defaulted": name in study.defaulted,
+            }
+
+    # Wright's density costs a quadrature per draw: fewer draws under drift
+    keep = _subsample(chains * draws, DRIFT_DERIVED_DRAWS if model.drift else DERIVED_DRAWS,
+                      rng)
+    sub_params = {k: v[keep] for k, v in params.items()}
+    with np.errstate(all="ignore"):
+        state = model.state(sub_params)
+        derived_flat = derived_quantities(model, sub_params, state)
+        predictive_state = state
+        if model.drift:
+            from infer.core.drift import stationary as drift
+            from infer.model.balance_state import State
+
+            x = drift.sample_stationary(rng, sub_params["Ne"], sub_params["mu"],
+                                        sub_params["s"], sub_params["h"], sub_params["nu"])
+            predictive_state = State.at_frequency(sub_params, x)
+    derived = {k: v[None, :] for k, v in derived_flat.items()}
+    derived_summary = {}
+    for k, v in derived.items():
+        med, lo, hi = central_quantiles(v, interval)
+        derived_summary[k] = {"median": med, "lower": lo, "upper": hi,
+                              "no_equilibrium_share": float(np.mean(~np.isfinite(v)))}
+
+    replicated, predictive = [], []
+    for obs in model.observations:
+        with np.errstate(all="ignore"):
+            at = predictive_state if obs.depends_on_frequency else state
+            rep = np.asarray(obs.simulate(at, rng), dtype=float)
+            expected = np.asarray(obs.expected(at), dtype=float)
+        replicated.append(rep[None, :])
+        observed = float(obs.statistic())
+        predictive.append({
+            "label": obs.label, "kind": obs.kind, "statistic": obs.statistic_name,
+            "observed": observed,
+            "expected_median": float(np.nanmedian(expected)) if np.isfinite(expected).any()
+            else None,
+            "p_value": two_sided_p_value(rep, observed),
+        })
+
+    frequency_kinds = {"allele-count", "genotype-count", "affected"}
+    frequency_only = all(o.kind in frequency_kinds for o in model.observations)
+    h_prior = study.parameters["h"]
+    recessive = isinstance(h_prior, Fixed) and float(h_prior.value) == 0.0
+    statements = identifiability(model.free, posterior, prior, parameters, frequency_only,
+                                 study.inheritance, recessive)
+
+    diagnostics = {
+        "converged": bool(run.converged), "walkers": run.walkers,
+        "ensembles": int(chains), "steps": run.steps, "burn_in": run.burn_in,
+        "thin": run.thin, "draws": int(chains * draws),
+        "autocorr_time": {n: float(t) for n, t in zip(model.free, run.autocorr_time,
+                                                      strict=True)},
+        "evaluations": int(run.evaluations), "messages": list(run.messages),
+    }
+    summary = {
+        "title": study.title, "interval": interval, "inheritance": study.inheritance,
+        "model": study.model, "seed": seed,
+        "parameters": parameters, "derived": derived_summary, "diagnostics": diagnostics,
+        "predictive": predictive, "identifiability": statements,
+    }
+    if grid is not None:
+        from infer.inference.grid import compare_with_draws
+
+        summary["grid"] = {"quantiles": grid.quantiles, "evaluations": grid.points,
+                           **compare_with_draws(grid, posterior, interval)}
+    ll = run.blobs
+    trace_params, _ = model.to_parameters(run.trace.reshape(-1, model.ndim))
+    trace_walkers = {n: trace_params[n].reshape(run.trace.shape[:3]) for n in model.free}
+    return EstimateResult(study=study, free=list(model.free), posterior=posterior, prior=prior,
+                          derived=derived, trace_walkers=trace_walkers, burn_in=run.burn_in,
+                          log_likelihood=ll, replicated=replicated, summary=summary, grid=grid)

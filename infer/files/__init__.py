@@ -1,0 +1,1 @@
+"""Readers of the files users write: study and claim TOML, loci CSV."""

@@ -1,0 +1,425 @@
+"""Study files: TOML (UTF-8) -> a validated :class:`Study` (DESIGN.md section 3).
+
+All validation of a study happens here and in the parsers it calls
+(:func:`infer.model.priors.parsing.parse_parameter`, :func:`infer.model.observations.kinds.parse_observation`).
+Every problem raises :class:`~infer.errors.InputError` carrying the file name as
+given, the field (``observations[2].affected``, counted from 1) and the bad value,
+so the command line prints one line and exits with status 2.
+
+A study file::
+
+    title = "Dominant disorder, island birth registry"
+    inheritance = "autosomal"        # "autosomal" (default) | "x-linked"
+    model = "deterministic"          # "deterministic" (default) | "drift"
+    interval = 0.95                  # credible level, 0 < interval < 1 (default 0.95)
+
+    [parameters]                     # omitted parameters take the documented defaults
+    mu = { prior = "log-uniform", low = 1e-8, high = 1e-3 }
+    h = 1.0                          # a bare number fixes a parameter
+
+    [[observations]]
+    kind = "affected"
+    affected = 12
+    total = 94075
+    mode = "dominant"
+
+    [sampler]                        # optional
+    seed = 1                         # integer >= 0
+    walkers = 32                     # integer >= max(4, 2 x free parameters)
+    max_steps = 200000               # integer >= 1: the step cap of each ensemble
+    ensembles = 4                    # integer in [2, 64]
+"""
+
+from __future__ import annotations
+
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from infer.errors import InputError
+from infer.model.observations.kinds import Estimate, Observation, parse_observation
+from infer.model.priors.parsing import (
+    PARAMETERS,
+    Fixed,
+    Prior,
+    defaults_for,
+    parse_parameter,
+)
+from infer.model.balance_state import State
+from infer.validate import (
+    check_keys as _check_keys,
+    choice as _choice,
+    quote_value as _fmt,
+    real_number as _real,
+)
+
+__all__ = [
+    "Study",
+    "load_study",
+    "study_document",
+    "parse_study",
+    "TOP_LEVEL_KEYS",
+    "SAMPLER_KEYS",
+    "INHERITANCES",
+    "MODELS",
+    "SUPPORT_CHECK_DRAWS",
+]
+
+TOP_LEVEL_KEYS = (
+    "title", "inheritance", "model", "interval", "parameters", "observations", "sampler",
+)
+SAMPLER_KEYS = ("seed", "walkers", "max_steps", "ensembles")
+INHERITANCES = ("autosomal", "x-linked")
+MODELS = ("deterministic", "drift")
+#: prior draws used to check that the priors put mass where each observation can arise
+SUPPORT_CHECK_DRAWS = 400
+_DRIFT_SCOPE = "the drift model covers autosomal loci with F = 0"
+
+
+@dataclass
+class Study:
+    """A validated study.
+
+    Attributes
+    ----------
+    path : str
+        The file name as given (or the ``source`` of :func:`parse_study`).
+    title, inheritance, model : str
+    interval : float
+        Credible level of every reported interval.
+    parameters : dict of str to Prior or Fixed
+        Every life-cycle parameter, defaults filled, in canonical order.
+    defaulted : set of str
+        Names filled from the defaults (the report lists them).
+    observations : list of Observation
+    seed : int or None
+        ``[sampler] seed``.
+    sampler : dict
+        The validated ``[sampler]`` settings as given (seed included).
+    """
+
+    path: str
+    title: str
+    inheritance: str
+    model: str
+    interval: float
+    parameters: dict[str, Prior | Fixed]
+    defaulted: set[str]
+    observations: list[Observation]
+    seed: int | None = None
+    sampler: dict = field(default_factory=dict)
+
+    @property
+    def free(self) -> list[str]:
+        """Names of the parameters with a prior, in canonical order."""
+        return [name for name in PARAMETERS if isinstance(self.parameters[name], Prior)]
+
+    @property
+    def fixed(self) -> dict[str, float]:
+        """Fixed parameters and their values, in canonical order."""
+        return {
+            name: self.parameters[name].value
+            for name in PARAMETERS
+            if isinstance(self.parameters[name], Fixed)
+        }
+
+
+def study_document(study: Study) -> dict:
+    """The study as a TOML-shaped document, defaults written out.
+
+    ``parse_study(study_document(study), source=study.path)`` rebuilds an equal study
+    (except ``defaulted``, which then holds only Ne under the deterministic model, where Ne
+    is not used and not written); reports use it to show every assumption.
+    """
+    document = {
+        "title": study.title,
+        "inheritance": study.inheritance,
+        "model": study.model,
+        "interval": study.interval,
+        "parameters": {
+            name: spec.as_dict() if isinstance(spec, Prior) else spec.value
+            for name, spec in study.parameters.items()
+            if not (study.model == "deterministic" and name == "Ne")
+        },
+        "observations": [observation.as_table() for observation in study.observations],
+    }
+    if study.sampler:
+        document["sampler"] = dict(study.sampler)
+    return document
+
+
+def load_study(path, *, require_free: bool = True) -> Study:
+    """Read and validate a study file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The TOML file; error messages name it as given.
+    require_free : bool, optional
+        Refuse a study whose parameters are all fixed (default True: there is
+        nothing to estimate).
+
+    Raises
+    ------
+    InputError
+        Unreadable file, not UTF-8, invalid TOML, or any error of :func:`parse_study`.
+    """
+    source = str(path)
+    try:
+        raw = Path(path).read_bytes()
+    except OSError as error:
+        reason = error.strerror or type(error).__name__
+        raise InputError(f"cannot read the file: {reason}", source=source) from None
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as error:
+        byte = raw[error.start]
+        raise InputError(
+            f"the file is not UTF-8 text (byte 0x{byte:02x} at offset {error.start}); "
+            "save it as UTF-8",
+            source=source,
+        ) from None
+    try:
+        document = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as error:
+        raise InputError(f"invalid TOML: {error}", source=source) from None
+    return parse_study(document, source=source, require_free=require_free)
+
+
+def parse_study(document: dict, *, source: str, require_free: bool = True) -> Study:
+    """Validate a parsed TOML document and build the :class:`Study`.
+
+    Parameters
+    ----------
+    document : dict
+        The output of ``tomllib``.
+    source : str
+        The file name for error messages (also ``Study.path``).
+    require_free : bool, optional
+        Refuse a study without free parameters (default True).
+
+    Raises
+    ------
+    InputError
+        With ``source`` set and the field of the first problem found.
+    """
+    try:
+        return _parse(document, source, require_free)
+    except InputError as error:
+        raise error.located(source=source) from None
+
+
+def _parse(document: Any, source: str, require_free: bool) -> Study:
+    if not isinstance(document, dict):
+        raise InputError("a study file must be a TOML document")
+    for key, value in document.items():
+        if key not in TOP_LEVEL_KEYS:
+            what = "section" if isinstance(value, (dict, list)) else "key"
+            raise InputError(
+                f'unknown {what} "{key}"; must be one of {", ".join(TOP_LEVEL_KEYS)}', field=key
+            )
+    title = document.get("title", Path(source).stem)
+    if not isinstance(title, str):
+        raise InputError(f"{_fmt(title)} is not a text", field="title")
+    inheritance = _choice(document.get("inheritance", "autosomal"), INHERITANCES, "inheritance")
+    model = _choice(document.get("model", "deterministic"), MODELS, "model")
+    interval = _real(document.get("interval", 0.95), "interval")
+    if not 0.0 < interval < 1.0:
+        raise InputError(f"{_fmt(document['interval'])} is not between 0 and 1", field="interval")
+    if model == "drift" and inheritance != "autosomal":
+        raise InputError(f'{_DRIFT_SCOPE}; inheritance is "{inheritance}"', field="model")
+
+    parameters, defaulted = _parse_parameters(document.get("parameters", {}), model, inheritance)
+    observations = _parse_observations(document.get("observations"), inheritance)
+    _check_observations_fit(observations, parameters, model)
+
+    free = [name for name in PARAMETERS if isinstance(parameters[name], Prior)]
+    if require_free and not free:
+        raise InputError(
+            "no free parameter to estimate: every parameter is fixed", field="parameters"
+        )
+    sampler = _parse_sampler(document.get("sampler", {}), len(free))
+    study = Study(
+        path=source,
+        title=title,
+        inheritance=inheritance,
+        model=model,
+        interval=interval,
+        parameters=parameters,
+        defaulted=defaulted,
+        observations=observations,
+        seed=sampler.get("seed"),
+        sampler=sampler,
+    )
+    _check_prior_support(study)
+    return study
+
+
+def _parse_parameters(table: Any, model: str, inheritance: str):
+    if not isinstance(table, dict):
+        raise InputError(f"{_fmt(table)} is not a table", field="parameters")
+    given = {
+        name: parse_parameter(name, value, field=f"parameters.{name}")
+        for name, value in table.items()
+    }
+    defaults = defaults_for(model)
+    if model == "drift":
+        if "Ne" not in given:
+            raise InputError(
+                "missing; the drift model needs Ne, the effective population size "
+                "(a number or a prior)",
+                field="parameters.Ne",
+            )
+        F = given.get("F")
+        if isinstance(F, Prior) or (isinstance(F, Fixed) and F.value != 0):
+            shown = F.describe() if isinstance(F, Prior) else _fmt(table["F"])
+            raise InputError(f"{shown}: {_DRIFT_SCOPE}", field="parameters.F")
+        nu = given.get("nu")
+        if isinstance(nu, Fixed) and nu.value == 0:
+            raise InputError(
+                f"{_fmt(table['nu'])}: the drift model needs back mutation nu > 0 (Wright's "
+                "density cannot be normalised at nu = 0); omit nu for the default 1e-09",
+                field="parameters.nu",
+            )
+    elif isinstance(given.get("Ne"), Prior):
+        raise InputError(
+            f'{given["Ne"].describe()}: Ne is used only by model = "drift"; '
+            "the deterministic model has no Ne to estimate",
+            field="parameters.Ne",
+        )
+    if inheritance == "autosomal" and isinstance(given.get("alpha"), Prior):
+        raise InputError(
+            f'{given["alpha"].describe()}: alpha (male-to-female mutation ratio) is used only '
+            'by inheritance = "x-linked"',
+            field="parameters.alpha",
+        )
+    parameters = {name: given.get(name, defaults.get(name)) for name in PARAMETERS}
+    defaulted = {name for name in PARAMETERS if name not in given}
+    return parameters, defaulted
+
+
+def _parse_observations(tables: Any, inheritance: str) -> list[Observation]:
+    if tables is None:
+        raise InputError(
+            "missing; a study needs at least one [[observations]] table", field="observations"
+        )
+    if not isinstance(tables, list) or not all(isinstance(t, dict) for t in tables):
+        raise InputError(
+            f"{_fmt(tables)} is not a list of [[observations]] tables", field="observations"
+        )
+    if not tables:
+        raise InputError("empty; a study needs at least one observation", field="observations")
+    observations: list[Observation] = []
+    labels: dict[str, int] = {}
+    for index, table in enumerate(tables, start=1):
+        where = f"observations[{index}]"
+        observation = parse_observation(table, field=where, inheritance=inheritance)
+        if observation.label in labels:
+            raise InputError(
+                f'"{observation.label}" is already the label of '
+                f"observations[{labels[observation.label]}]",
+                field=f"{where}.label",
+            )
+        labels[observation.label] = index
+        observations.append(observation)
+    return observations
+
+
+def _check_observations_fit(observations, parameters, model) -> None:
+    """Outside estimates must be of a parameter the model estimates."""
+    for index, observation in enumerate(observations, start=1):
+        if not isinstance(observation, Estimate):
+            continue
+        where = f"observations[{index}].parameter"
+        name = observation.parameter
+        if name == "Ne" and model != "drift":
+            raise InputError(
+                '"Ne": the deterministic model has no Ne; use model = "drift"', field=where
+            )
+        if isinstance(parameters[name], Fixed):
+            raise InputError(
+                f'"{name}" is fixed at {parameters[name].value:g} in [parameters]; an outside '
+                "estimate of it would change nothing (give it a prior)",
+                field=where,
+            )
+
+
+def _parse_sampler(table: Any, n_free: int) -> dict:
+    if not isinstance(table, dict):
+        raise InputError(f"{_fmt(table)} is not a table", field="sampler")
+    _check_keys(table, (), SAMPLER_KEYS, "sampler")
+    least_walkers = max(4, 2 * n_free)
+    limits = {
+        "seed": (0, None, "a seed is an integer >= 0"),
+        "walkers": (least_walkers, 100_000,
+                    f"need at least {least_walkers} walkers (4, and twice the free parameters)"),
+        "max_steps": (1, 100_000_000, "the step cap is at least 1"),
+        "ensembles": (2, 64, "between 2 and 64 ensembles (R-hat compares ensembles)"),
+    }
+    settings = {}
+    for key, value in table.items():
+        where = f"sampler.{key}"
+        if not isinstance(value, int) or isinstance(value, bool):
+            raise InputError(f"{_fmt(value)} is not a whole number", field=where)
+        number = value
+        low, high, why = limits[key]
+        if number < low or (high is not None and number > high):
+            raise InputError(f"{_fmt(value)} is out of range: {why}", field=where)
+        settings[key] = int(number)
+    return settings
+
+
+def _check_prior_support(study: Study) -> None:
+    """Refuse priors that put no mass where an observation can arise.
+
+    Evaluates each observation's log-likelihood on ``SUPPORT_CHECK_DRAWS`` prior draws
+    (a fixed internal seed, so the check is reproducible and touches no global
+    state): an observation that is impossible in every draw is an error naming it.
+    Under the drift model frequency kinds are skipped (the stationary density
+    spreads over every frequency).
+    """
+    rng = np.random.default_rng(20_240_601)
+    n = SUPPORT_CHECK_DRAWS if study.free else 1
+    params = {
+        name: (spec.sample(rng, n) if isinstance(spec, Prior) else np.full(n, spec.value))
+        for name, spec in study.parameters.items()
+    }
+    with np.errstate(all="ignore"):
+        if study.model == "drift":
+            state = State.without_frequency(params, study.inheritance)
+        else:
+            state = State.deterministic(params, study.inheritance)
+        total = np.zeros(n)
+        checked = False
+        for index, observation in enumerate(study.observations, start=1):
+            if study.model == "drift" and observation.depends_on_frequency:
+                continue
+            ll = observation.log_likelihood(state)
+            if not np.isfinite(ll).any():
+                draws = (
+                    f"every one of {n} draws from the priors" if study.free
+                    else "the fixed parameters"
+                )
+                if observation.depends_on_frequency and not state.exists.any():
+                    reason = (
+                        f"there is no stable equilibrium under {draws}: mutation overwhelms "
+                        "selection (check the priors of mu, s and h)"
+                    )
+                else:
+                    reason = f"the priors put no mass where these data can arise ({draws})"
+                raise InputError(
+                    f"{observation.statistic_name} = {observation.statistic():g} has probability "
+                    f"0: {reason}",
+                    field=f"observations[{index}]",
+                )
+            total = total + ll
+            checked = True
+    if checked and not np.isfinite(total).any():
+        raise InputError(
+            f"the observations together have probability 0 under every one of {n} draws "
+            "from the priors",
+            field="observations",
+        )

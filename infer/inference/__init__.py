@@ -1,0 +1,1 @@
+"""Sampling to convergence, exact grids, diagnostics and calibration."""

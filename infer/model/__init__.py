@@ -1,0 +1,1 @@
+"""The statistical model: parameter state, priors, observation kinds, log posterior."""

@@ -1,0 +1,140 @@
+"""The model state handed to observations: parameter arrays plus the equilibrium they imply.
+
+One row per parameter vector (walker, grid point or prior draw).  Observations read
+``state.params`` for rates and ``state.q`` (``q_male``, ``q_female`` for an X-linked
+locus) for frequencies among newborns; nothing here loops over rows.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+__all__ = ["State", "broadcast_params", "INHERITANCES"]
+
+INHERITANCES = ("autosomal", "x-linked")
+_NAMES = ("mu", "s", "h", "F", "nu", "Ne", "alpha")
+
+
+def broadcast_params(params: dict) -> dict[str, np.ndarray]:
+    """Return every life-cycle parameter as a float array of one common shape ``(n,)``.
+
+    Parameters
+    ----------
+    params : dict
+        Maps each of mu, s, h, F, nu, Ne, alpha to a scalar or array; scalars
+        (fixed parameters) are broadcast to the rows of the arrays.
+
+    Raises
+    ------
+    KeyError
+        When a life-cycle parameter is missing.
+    """
+    missing = [name for name in _NAMES if name not in params]
+    if missing:
+        raise KeyError(f"parameters missing from the state: {', '.join(missing)}")
+    arrays = {name: np.asarray(params[name], dtype=float) for name in _NAMES}
+    shapes = {a.shape for a in arrays.values()}
+    if len(shapes) == 1 and len(next(iter(shapes))) == 1:
+        return arrays  # the common case: already (n,) arrays
+    shape = np.broadcast_shapes(*shapes)
+    if shape == ():
+        shape = (1,)
+    return {name: np.broadcast_to(a, shape).reshape(shape) for name, a in arrays.items()}
+
+
+@dataclass
+class State:
+    """Parameters and equilibrium frequencies for ``n`` rows.
+
+    Attributes
+    ----------
+    params : dict of str to ndarray
+        Every life-cycle parameter (mu, s, h, F, nu, Ne, alpha) as an ``(n,)`` array.
+    inheritance : str
+        ``"autosomal"`` or ``"x-linked"``.
+    q : ndarray
+        Frequency of the deleterious allele among zygotes (X-linked: over all X
+        chromosomes); NaN where there is no stable interior equilibrium.
+    q_male, q_female : ndarray or None
+        X-linked only: frequency among newborn sons and among daughters' X chromosomes.
+    exists : ndarray of bool
+        A stable interior equilibrium exists in that row.
+    balance : object, optional
+        The full balance result (load, mean fitness...), when computed.
+    """
+
+    params: dict[str, np.ndarray]
+    inheritance: str
+    q: np.ndarray
+    q_male: np.ndarray | None
+    q_female: np.ndarray | None
+    exists: np.ndarray
+    balance: Any = None
+
+    @property
+    def n(self) -> int:
+        """Number of rows."""
+        return int(np.shape(self.exists)[0])
+
+    @classmethod
+    def deterministic(cls, params: dict, inheritance: str) -> State:
+        """The exact deterministic equilibrium of each row (infinite population).
+
+        Parameters
+        ----------
+        params : dict
+            Every life-cycle parameter, scalars or ``(n,)`` arrays.
+        inheritance : str
+            ``"autosomal"`` or ``"x-linked"``.
+        """
+        from infer.core import balance
+
+        p = broadcast_params(params)
+        if inheritance == "autosomal":
+            result = balance.autosomal_balance(p["mu"], p["s"], p["h"], F=p["F"], nu=p["nu"])
+            q = np.asarray(result.q_hat, dtype=float)
+            exists = np.asarray(result.exists, dtype=bool) & np.isfinite(q)
+            return cls(p, inheritance, q, None, None, exists, result)
+        if inheritance == "x-linked":
+            result = balance.x_linked_balance(
+                p["mu"], p["s"], p["h"], F=p["F"], nu=p["nu"], alpha=p["alpha"]
+            )
+            q = np.asarray(result.q_hat, dtype=float)
+            q_male = np.asarray(result.q_male, dtype=float)
+            q_female = np.asarray(result.q_female, dtype=float)
+            exists = (
+                np.asarray(result.exists, dtype=bool)
+                & np.isfinite(q)
+                & np.isfinite(q_male)
+                & np.isfinite(q_female)
+            )
+            return cls(p, inheritance, q, q_male, q_female, exists, result)
+        raise ValueError(f"inheritance must be one of {', '.join(INHERITANCES)}: {inheritance!r}")
+
+    @classmethod
+    def at_frequency(cls, params: dict, q) -> State:
+        """An autosomal state at given frequencies ``q`` (e.g. draws from Wright's density).
+
+        Used for predictive draws under the drift model: every row exists.
+        """
+        p = broadcast_params(params)
+        q = np.broadcast_to(np.asarray(q, dtype=float), p["mu"].shape).copy()
+        return cls(p, "autosomal", q, None, None, np.ones(q.shape, dtype=bool))
+
+    @classmethod
+    def without_frequency(cls, params: dict, inheritance: str) -> State:
+        """Parameters only, for observation kinds that do not depend on the frequency."""
+        p = broadcast_params(params)
+        nan = np.full(p["mu"].shape, np.nan)
+        x_linked = inheritance == "x-linked"
+        return cls(
+            p,
+            inheritance,
+            nan,
+            nan.copy() if x_linked else None,
+            nan.copy() if x_linked else None,
+            np.ones(nan.shape, dtype=bool),
+        )

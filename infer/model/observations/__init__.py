@@ -1,0 +1,1 @@
+"""Observation kinds: each one small class with its likelihood, expectation and simulation."""

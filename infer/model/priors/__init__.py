@@ -1,0 +1,1 @@
+"""Prior families and the parsing of a study's [parameters] table."""

@@ -1,0 +1,235 @@
+"""Prior distributions for the life-cycle parameters, their defaults and transforms.
+
+A study's ``[parameters]`` table gives each parameter either a bare number (a
+:class:`Fixed` value) or a table naming a prior family:
+
+=============  ===========================  ============================================
+family         keys                         density on the parameter's own scale
+=============  ===========================  ============================================
+log-uniform    ``low``, ``high``            1 / (x ln(high/low)) on [low, high]
+log-normal     ``median``, ``sigma``        ln x ~ Normal(ln median, sigma), truncated
+                                            to the parameter's support
+uniform        ``low``, ``high``            1 / (high - low) on [low, high]
+beta           ``a``, ``b``                 Beta(a, b) (parameters on [0, 1] only)
+normal         ``mean``, ``sd``             Normal(mean, sd) truncated to the support
+=============  ===========================  ============================================
+
+Supports (:data:`SUPPORT`): mu (0, 1), s (0, 1], h [0, 1], F [0, 1), nu [0, 1),
+Ne (0, inf), alpha (0, inf).  Prior bounds may touch the ends of a support
+(``uniform(0, 1)`` for s is allowed: a single end point carries no probability);
+a fixed value must lie inside it.
+
+Defaults when a parameter is omitted (:data:`DEFAULTS`, :func:`defaults_for`):
+
+=====  ==========================  ===========================================================
+name   deterministic model         drift model
+=====  ==========================  ===========================================================
+mu     log-uniform(1e-09, 0.001)   same
+s      uniform(0, 1)               same
+h      uniform(0, 1)               same
+F      fixed 0                     fixed 0 (the drift model needs F = 0)
+nu     fixed 0 (no back mutation)  fixed 1e-09 (Wright's density needs nu > 0; small enough
+                                   that it does not matter for a deleterious allele)
+Ne     fixed inf (not used)        required: there is no sensible default
+alpha  fixed 1 (equal rates)       same
+=====  ==========================  ===========================================================
+
+Sampling coordinates: every prior maps its support to the whole real line with
+:meth:`Prior.to_unconstrained` / :meth:`Prior.from_unconstrained`, which also returns
+log|dx/dz| so a sampler in z sees the right density:
+
+* log-uniform: logit of the position of ln x within [ln low, ln high];
+* uniform, beta: logit of the position of x within the interval;
+* log-normal and normal: logit of the position within the parameter's support when
+  it is bounded (mu, s, h, F, nu), log(x - lower end) when it is half-bounded
+  (Ne, alpha).
+
+Reports summarise each parameter on its *sampling scale* (:meth:`Prior.sampling_scale`):
+log10 for the log-uniform and log-normal priors, the parameter itself otherwise.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from infer.errors import InputError
+from infer.model.priors.families import (
+    FAMILIES,
+    Beta,
+    Fixed,
+    LogNormal,
+    LogUniform,
+    Normal,
+    Prior,
+    Uniform,
+)
+from infer.core.supports import PARAMETERS, SUPPORT, in_support, support_text
+from infer.validate import check_keys, choice, one_of, quote_value, real_number
+
+__all__ = [
+    "PARAMETERS",
+    "SUPPORT",
+    "DEFAULTS",
+    "DRIFT_DEFAULTS",
+    "FAMILIES",
+    "Prior",
+    "LogUniform",
+    "LogNormal",
+    "Uniform",
+    "Beta",
+    "Normal",
+    "Fixed",
+    "defaults_for",
+    "defaults_table",
+    "parse_parameter",
+]
+
+DEFAULTS: dict[str, Prior | Fixed] = {
+    "mu": LogUniform("mu", 1e-9, 1e-3),
+    "s": Uniform("s", 0.0, 1.0),
+    "h": Uniform("h", 0.0, 1.0),
+    "F": Fixed("F", 0.0),
+    "nu": Fixed("nu", 0.0),
+    "Ne": Fixed("Ne", math.inf),
+    "alpha": Fixed("alpha", 1.0),
+}
+"""Defaults of the deterministic model (Ne = inf: an infinite population, unused)."""
+
+DRIFT_DEFAULTS: dict[str, Prior | Fixed] = {
+    **{k: v for k, v in DEFAULTS.items() if k != "Ne"},
+    "nu": Fixed("nu", 1e-9),
+}
+"""Defaults of the drift model; Ne has none (a study must give it)."""
+
+
+def defaults_for(model: str) -> dict[str, Prior | Fixed]:
+    """Defaults for ``model`` (``"deterministic"`` or ``"drift"``)."""
+    return dict(DRIFT_DEFAULTS if model == "drift" else DEFAULTS)
+
+
+def defaults_table() -> list[tuple[str, str, str]]:
+    """Rows (parameter, deterministic default, drift default) for the README."""
+    return [
+        (
+            name,
+            DEFAULTS[name].describe() if name != "Ne" else "not used",
+            DRIFT_DEFAULTS[name].describe() if name in DRIFT_DEFAULTS else "required",
+        )
+        for name in PARAMETERS
+    ]
+
+
+def _check_prior_range(name: str, low: float, high: float, field: str) -> None:
+    """A prior's [low, high] must lie within the closure of the parameter's support."""
+    lower, upper = SUPPORT[name]
+    if low < lower:
+        raise InputError(
+            f"{quote_value(low)} is outside the support {support_text(name)} of {name}",
+            field=f"{field}.low",
+        )
+    if high > upper:
+        raise InputError(
+            f"{quote_value(high)} is outside the support {support_text(name)} of {name}",
+            field=f"{field}.high",
+        )
+
+
+def _parse_prior(name: str, table: dict, field: str) -> Prior:
+    if "prior" not in table:
+        raise InputError(f"missing; {one_of(FAMILIES)}", field=f"{field}.prior")
+    family = choice(table["prior"], FAMILIES, f"{field}.prior")
+    cls = FAMILIES[family]
+    check_keys(table, ("prior", *cls.keys), (), field)
+    values = {k: real_number(table[k], f"{field}.{k}") for k in cls.keys}
+
+    if cls in (LogUniform, Uniform):
+        low, high = values["low"], values["high"]
+        if low >= high:
+            raise InputError(
+                f"{quote_value(table['low'])} is not below high {quote_value(table['high'])}",
+                field=f"{field}.low",
+            )
+        _check_prior_range(name, low, high, field)
+        if cls is LogUniform and low <= 0:
+            raise InputError(
+                f"{quote_value(table['low'])} is not above 0 (a log-uniform prior needs low > 0)",
+                field=f"{field}.low",
+            )
+    elif cls is LogNormal:
+        if values["median"] <= 0 or not in_support(name, np.asarray(values["median"])):
+            raise InputError(
+                f"{quote_value(table['median'])} is outside the support "
+                f"{support_text(name)} of {name}",
+                field=f"{field}.median",
+            )
+        if values["sigma"] <= 0:
+            raise InputError(
+                f"{quote_value(table['sigma'])} is not above 0", field=f"{field}.sigma"
+            )
+    elif cls is Normal:
+        if values["sd"] <= 0:
+            raise InputError(f"{quote_value(table['sd'])} is not above 0", field=f"{field}.sd")
+    elif cls is Beta:
+        if SUPPORT[name][1] > 1:
+            raise InputError(
+                f'"beta" is for parameters on [0, 1]; {name} has support {support_text(name)}',
+                field=f"{field}.prior",
+            )
+        for key in ("a", "b"):
+            if values[key] <= 0:
+                raise InputError(
+                    f"{quote_value(table[key])} is not above 0", field=f"{field}.{key}"
+                )
+
+    prior = cls(name, **values)
+    if cls in (LogNormal, Normal) and prior._mass() < 1e-12:
+        raise InputError(
+            f"{prior.describe()} puts no probability inside the support "
+            f"{support_text(name)} of {name}",
+            field=field,
+        )
+    return prior
+
+
+def parse_parameter(name: str, value: Any, *, field: str) -> Prior | Fixed:
+    """Validate one entry of a study's ``[parameters]`` table.
+
+    Parameters
+    ----------
+    name : str
+        Parameter name; one of :data:`PARAMETERS`.
+    value : number or dict
+        A bare number (fixed) or a table ``{prior = "...", ...}``.
+    field : str
+        Where the entry sits in the file (``"parameters.mu"``), for error messages.
+
+    Returns
+    -------
+    Prior or Fixed
+
+    Raises
+    ------
+    InputError
+        Unknown parameter or family, missing or extra keys, low >= high, values
+        outside the support, sigma/sd <= 0, non-finite numbers or booleans.
+    """
+    if name not in SUPPORT:
+        raise InputError(f'unknown parameter "{name}"; {one_of(PARAMETERS)}', field=field)
+    if isinstance(value, dict):
+        return _parse_prior(name, value, field)
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(
+            f"{quote_value(value)} is neither a number nor a prior table "
+            f'(such as {{ prior = "uniform", low = 0, high = 1 }})',
+            field=field,
+        )
+    number = real_number(value, field)
+    if not in_support(name, np.asarray(number)):
+        raise InputError(
+            f"{quote_value(value)} is outside the support {support_text(name)} of {name}",
+            field=field,
+        )
+    return Fixed(name, number)

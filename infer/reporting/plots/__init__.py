@@ -1,0 +1,1 @@
+"""Figures drawn from typed results (matplotlib imported only here)."""

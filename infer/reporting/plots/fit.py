@@ -1,0 +1,204 @@
+"""Model plots of a report: the balance curve against the data, predictive checks."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from infer.reporting.plots.common import (
+    _every,
+    _finite,
+    _histogram,
+    _level,
+    _no_data,
+    _panels,
+    _quiet,
+    _tidy,
+    _title,
+    axis_label,
+)
+
+__all__ = ["balance_figure", "predictive_figure"]
+
+_TARGET_LEGEND = {"q_hat": "q_hat", "q_male": "q_male (newborn sons)",
+                  "q_female": "q_female (daughters)"}
+_CURVE_DRAWS = 300
+_FIXED_DEFAULTS = {"F": 0.0, "nu": 0.0, "alpha": 1.0}
+
+
+def _clopper_pearson(k: int, n: int, level: float = 0.95) -> tuple[float, float]:
+    """Exact binomial interval (Clopper & Pearson 1934, Biometrika 26: 404-413).
+
+    The beta quantiles come from scipy.special (importing scipy.stats costs ~0.4 s).
+    """
+    from scipy.special import betaincinv
+
+    tail = (1 - level) / 2
+    lower = 0.0 if k <= 0 else float(betaincinv(k, n - k + 1, tail))
+    upper = 1.0 if k >= n else float(betaincinv(k + 1, n - k, 1 - tail))
+    return lower, upper
+
+
+def _observed_bands(result) -> list[tuple[str, float, float, str]]:
+    """(frequency compared, lower, upper, legend) per allele- or genotype-count datum."""
+    x_linked = result.study.inheritance == "x-linked"
+    bands = []
+    for obs in result.study.observations:
+        if obs.kind == "allele-count":
+            k, n = int(obs.observed), int(obs.sampled)
+            target = {"male": "q_male", "female": "q_female"}.get(getattr(obs, "sex", None),
+                                                                 "q_hat")
+        elif obs.kind == "genotype-count":
+            k, n = int(obs.Aa) + 2 * int(obs.aa), 2 * (int(obs.AA) + int(obs.Aa) + int(obs.aa))
+            target = "q_female"  # X-linked genotypes are daughters'
+        else:
+            continue
+        if n > 0:
+            lower, upper = _clopper_pearson(k, n)
+            bands.append((target if x_linked else "q_hat", lower, upper,
+                          f"observed {obs.label}: {k}/{n} (95 % Clopper-Pearson)"))
+    return bands
+
+
+def _balance_curves(result, draws, against, x, targets):
+    from infer.core import balance
+
+    count = max([v.size for v in draws.values()] or [1])
+    column = {n: (draws[n] if n in draws else
+                  np.full(count, float(getattr(result.study.parameters.get(n), "value",
+                                               _FIXED_DEFAULTS.get(n, 0.0)))))[:, None]
+              for n in ("mu", "s", "h", "F", "nu", "alpha")}
+    column[against] = x[None, :]
+    with np.errstate(all="ignore"):
+        if result.study.inheritance == "x-linked":
+            solved = balance.x_linked_balance(*(column[n] for n in
+                                                ("mu", "s", "h", "F", "nu", "alpha")))
+            return {t: np.asarray(getattr(solved, t), float) for t in targets}
+        return {"q_hat": np.asarray(balance.q_hat(*(column[n] for n in
+                                                     ("mu", "s", "h", "F", "nu"))), float)}
+
+
+def balance_figure(result):
+    """Exact q_hat against h (or s) over the posterior draws, with the observed frequencies.
+
+    Parameters
+    ----------
+    result : infer.estimate.results.EstimateResult
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    draws = {n: _every(np.asarray(result.posterior[n], float).ravel(), _CURVE_DRAWS)
+             for n in result.free}
+    against = "h" if "h" in result.free else "s"
+    fixed = {n: float(getattr(p, "value", np.nan)) for n, p in result.study.parameters.items()}
+    if against == "h":
+        x = np.linspace(0.0, 1.0, 101)
+    elif "s" in result.free:
+        prior_s = _finite(result.prior.get("s", draws["s"]))
+        low = np.quantile(np.concatenate([prior_s, draws["s"]]), 0.005)
+        x = np.geomspace(max(low, 1e-6), 1.0, 121)
+    else:
+        x = np.geomspace(max(fixed["s"] / 30, 1e-6), min(1.0, fixed["s"] * 30), 121)
+    bands = _observed_bands(result)
+    targets = sorted({band[0] for band in bands}) or ["q_hat"]
+    curves = _balance_curves(result, draws, against, x, targets)
+    level = _level(result)
+    figure, axes = _panels(1, 1, 5.6, 3.6, right=0.3)
+    ax = axes[0, 0]
+    values = [np.array([b[2] for b in bands])]
+    for number, (target, curve) in enumerate(curves.items()):
+        colour = ("tab:blue", "tab:purple", "tab:green")[number % 3]
+        with np.errstate(all="ignore"), _quiet():
+            lower, median, upper = np.nanquantile(np.where(curve > 0, curve, np.nan),
+                                                  [(1 - level) / 2, 0.5, (1 + level) / 2],
+                                                  axis=0)
+        name = _TARGET_LEGEND.get(target, target)
+        ax.fill_between(x, lower, upper, color=colour, alpha=0.2, lw=0,
+                        label=f"{name}: {round(100 * level)} % band over posterior draws")
+        ax.plot(x, median, color=colour, lw=1.8, label=f"{name}: posterior median")
+        values.append(np.concatenate([lower, upper]))
+        derived = _finite(result.derived.get(target, []))
+        if derived.size:
+            at = np.median(draws[against]) if against in draws else fixed[against]
+            ax.plot([at], [np.median(derived)], marker="o", ms=7, color=colour,
+                    markeredgecolor="black", ls="none", label=f"{name}: posterior median point")
+    values = _finite(np.concatenate(values))
+    values = values[values > 0]
+    floor = float(values.min()) / 3 if values.size else 1e-12
+    for number, (_, lower, upper, legend) in enumerate(bands):
+        ax.axhspan(max(lower, floor), upper, alpha=0.25, lw=0, label=legend,
+                   color=("tab:orange", "tab:red", "tab:brown", "tab:olive")[number % 4])
+    if values.size and values.max() / values.min() > 10:
+        ax.set_yscale("log")
+    if against == "s":
+        ax.set_xscale("log")
+        ax.set_xlabel(f"{axis_label('s')}; h fixed at {fixed.get('h', np.nan):g}", fontsize=9)
+    else:
+        ax.set_xlabel(axis_label("h"), fontsize=9)
+        ax.set_xlim(0.0, 1.0)
+    ax.set_ylabel(axis_label("q_hat"), fontsize=9)
+    ax.legend(fontsize=7, loc="best" if len(bands) < 3 else "upper left", framealpha=0.8)
+    _tidy(ax)
+    _title(figure, f"Mutation-selection balance: exact q_hat against {against}", result)
+    return figure
+
+
+# ---------------------------------------------------------------- 5. predictive
+
+
+def predictive_figure(result):
+    """Replicated statistic of each observation against the observed value.
+
+    Parameters
+    ----------
+    result : infer.estimate.results.EstimateResult
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    checks = list(result.summary.get("predictive", []))
+    observations = list(result.study.observations)
+    n = len(result.replicated)
+    columns = min(3, max(n, 1))
+    figure, axes = _panels(max(1, math.ceil(n / columns)), columns, 2.8, 1.9, left=0.7,
+                           top=0.85, wgap=0.7, hgap=1.05)
+    axes = axes.ravel()
+    for i, (ax, replicated) in enumerate(zip(axes, result.replicated, strict=False)):
+        check = checks[i] if i < len(checks) else {}
+        obs = observations[i] if i < len(observations) else None
+        observed = check.get("observed", obs.statistic() if obs is not None else None)
+        values = _finite(replicated)
+        if values.size:
+            low, high = float(values.min()), float(values.max())
+            if observed is not None and np.isfinite(observed):
+                low, high = min(low, float(observed)), max(high, float(observed))
+            integer = np.all(values == np.round(values)) and high - low < 60
+            bins = (np.arange(low - 0.5, high + 1.5) if integer
+                    else np.linspace(low, high if high > low else low + 1, 41))
+            _histogram(ax, values, bins, color="tab:green", alpha=0.6, label="replicated")
+        else:
+            ax.text(0.5, 0.5, "no finite replicates", ha="center", transform=ax.transAxes)
+        if observed is not None:
+            ax.axvline(float(observed), color="black", lw=1.8, label="observed")
+        p_value = check.get("p_value")
+        p_text = "p = n/a" if p_value is None or not np.isfinite(p_value) else f"p = {p_value:.3g}"
+        label = check.get("label") or getattr(obs, "label", f"observation {i + 1}")
+        ax.set_title(f"{label}\n{check.get('kind') or getattr(obs, 'kind', '')}, {p_text}",
+                     fontsize=8)
+        ax.set_xlabel(check.get("statistic") or getattr(obs, "statistic_name", "statistic"),
+                      fontsize=8)
+        ax.set_ylabel("predictive draws", fontsize=8)
+        if i == 0:
+            ax.legend(fontsize=7, loc="upper right", framealpha=0.8)
+        _tidy(ax, 7)
+    for ax in axes[n:]:
+        ax.set_visible(False)
+    if n == 0:
+        axes[0].set_visible(True)
+        _no_data(axes[0], "no observations")
+    _title(figure, "Posterior predictive checks (two-sided p-values)", result)
+    return figure
