@@ -36,13 +36,14 @@ class _Parser(argparse.ArgumentParser):
 
 def build_parser() -> argparse.ArgumentParser:
     """Return the full argument parser (every command registered)."""
+    from infer import __version__
+    from infer.core.text import caution_sentence
+
     parser = _Parser(
         prog="qhat",
         description="Mutation-selection balance: infer mu, s and h from what was observed. "
-        "Research estimates only, not a clinical or genetic-counselling result.",
+        + caution_sentence(),
     )
-    from infer import __version__
-
     parser.add_argument("--version", action="version", version=f"qhat {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name, help_text in COMMANDS.items():

@@ -81,8 +81,13 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from infer.batch.likelihood import TAILS, drift_coarse_log_likelihood, likelihood_grid
-from infer.batch.prior import (FittedPrior, SHetPrior, fit_log_normal_prior, hyper_grid,
-                               log_marginal_surface)
+from infer.batch.prior import (
+    FittedPrior,
+    SHetPrior,
+    fit_log_normal_prior,
+    hyper_grid,
+    log_marginal_surface,
+)
 from infer.batch.summary import FLAGS, posterior_summary
 
 __all__ = [

@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from infer.core.text import fmt
 from infer.files.claim import Claim
-from infer.reporting.markdown import fmt
 
 __all__ = ["Finding", "SEVERITIES", "claimed_text"]
 

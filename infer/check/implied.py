@@ -14,8 +14,8 @@ import numpy as np
 
 from infer.core import balance
 from infer.files.claim import Claim
-from infer.model.observations.kinds import x_linked_daughter_genotypes
 from infer.model.balance_state import State
+from infer.model.observations.kinds import x_linked_daughter_genotypes
 
 __all__ = ["implied_quantities", "drift_moments", "implied_values"]
 

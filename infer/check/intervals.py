@@ -14,9 +14,9 @@ from dataclasses import replace
 import numpy as np
 
 from infer.check.findings import Finding, claimed_text
+from infer.core.text import fmt
 from infer.files.claim import WIDE_PRIORS, Claim
 from infer.model.priors.parsing import SUPPORT
-from infer.reporting.markdown import fmt
 
 __all__ = ["implied_intervals", "DRIFT_GRID_POINTS"]
 

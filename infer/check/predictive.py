@@ -14,12 +14,12 @@ import math
 import numpy as np
 from scipy import special
 
-from infer.core import balance
 from infer.check.findings import Finding
 from infer.check.implied import drift_moments
-from infer.files.claim import Claim
-from infer.reporting.markdown import fmt
+from infer.core import balance
+from infer.core.text import fmt
 from infer.estimate.results import two_sided_p_value
+from infer.files.claim import Claim
 from infer.model.balance_state import State
 
 __all__ = ["statement_findings", "observation_finding", "SIMULATED_DRAWS", "DRIFT_TAIL_TERMS"]

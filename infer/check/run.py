@@ -51,11 +51,27 @@ from scipy import special
 
 from infer.check.findings import SEVERITIES, Finding, claimed_text
 from infer.check.implied import implied_quantities, implied_values
-from infer.check.intervals import implied_intervals
-from infer.check.predictive import observation_finding, statement_findings
-from infer.check.trade import (
+
+# public constants of infer.check.run, now kept beside the code that uses them
+from infer.check.intervals import (
+    DRIFT_GRID_POINTS,  # noqa: F401
+    implied_intervals,
+)
+from infer.check.predictive import (  # noqa: F401
+    DRIFT_TAIL_TERMS,
+    SIMULATED_DRAWS,
+    observation_finding,
+    statement_findings,
+)
+from infer.check.trade import (  # noqa: F401
+    DRIFT_ERROR,
+    DRIFT_WARNING,
+    NUCLEOTIDE_MARGIN,
     PER_LOCUS_RANGE,
     PER_NUCLEOTIDE_RANGE,
+    RARE_ERROR,
+    RARE_WARNING,
+    SINGLE_SITE_RATE,
     TRADE_MARGIN,
     alternative_explanations,
     approximation_findings,
@@ -63,20 +79,8 @@ from infer.check.trade import (
     trade_findings,
 )
 from infer.files.claim import Claim
-from infer.model.priors.parsing import SUPPORT
 from infer.model.balance_state import State
-
-# public constants of infer.check.run, now kept beside the code that uses them
-from infer.check.intervals import DRIFT_GRID_POINTS  # noqa: F401
-from infer.check.predictive import DRIFT_TAIL_TERMS, SIMULATED_DRAWS  # noqa: F401
-from infer.check.trade import (  # noqa: F401
-    DRIFT_ERROR,
-    DRIFT_WARNING,
-    NUCLEOTIDE_MARGIN,
-    RARE_ERROR,
-    RARE_WARNING,
-    SINGLE_SITE_RATE,
-)
+from infer.model.priors.parsing import SUPPORT
 
 __all__ = [
     "Finding",

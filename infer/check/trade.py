@@ -12,8 +12,8 @@ from __future__ import annotations
 import math
 
 from infer.check.findings import Finding, claimed_text
+from infer.core.text import fmt
 from infer.files.claim import Claim
-from infer.reporting.markdown import fmt
 from infer.model.balance_state import State
 
 __all__ = [

@@ -14,6 +14,8 @@ import math
 import sys
 import time
 
+from infer.core.text import caution_sentence
+
 __all__ = ["add_arguments", "run"]
 
 MODELS = ("deterministic", "drift")
@@ -140,7 +142,7 @@ def _prior_curve(prior, settings):
 def _summary(args, table, result, flags, timings, mu_sigma):
     import numpy as np
 
-    from infer.files.loci import CAUTION
+    from infer.core.text import CAUTION_LINE as CAUTION
 
     loci, settings = result.loci, result.settings
     counts = {key: {"count": int(np.sum((loci["flags"] & bit) > 0)), "meaning": meaning}
@@ -246,5 +248,5 @@ def _run(args, out, started) -> int:
         flagged = sum(v["count"] for v in summary["flags"].values())
         print(f"qhat batch: {len(table.names)} loci -> {out} ({result.prior.describe()}; "
               f"{flagged} flags; {time.perf_counter() - started:.1f} s). "
-              f"Research estimate, not a clinical or genetic-counselling result.")
+              f"{caution_sentence()}")
     return 0

@@ -13,6 +13,8 @@ import math
 import sys
 from pathlib import Path
 
+from infer.core.text import caution_sentence
+
 __all__ = ["add_arguments", "run", "text_report", "markdown_report", "balance_figure"]
 
 EXIT_OK, EXIT_INCONSISTENT = 0, 3
@@ -73,7 +75,7 @@ def run(args) -> int:
 
 
 def _claimed_lines(claim) -> list[str]:
-    from infer.reporting.markdown import fmt
+    from infer.core.text import fmt
 
     parts = []
     for name, value in claim.values.items():
@@ -88,7 +90,7 @@ def _claimed_lines(claim) -> list[str]:
 
 
 def _implied_lines(result) -> list[str]:
-    from infer.reporting.markdown import fmt
+    from infer.core.text import fmt
 
     implied, claim = result.implied, result.claim
     names = (["q_male", "q_female", "q_hat", "load_male", "new_mutation_share"]
@@ -128,14 +130,13 @@ def text_report(result, out: Path | None = None) -> str:
     lines += ["", _verdict(result)]
     if out is not None:
         lines.append(f"report: {out}/report.md")
-    lines.append("a research check under a population-genetic model, not a clinical or "
-                 "genetic-counselling result")
+    lines.append(caution_sentence())
     return "\n".join(lines)
 
 
 def markdown_report(result, plot: str | None) -> str:
     """The text of report.md."""
-    from infer.reporting.markdown import CAUTION, fmt
+    from infer.core.text import CAUTION, fmt
 
     claim, implied = result.claim, result.implied
     lines = [f"# Check: {claim.title}", "", CAUTION, ""]

@@ -14,6 +14,8 @@ import re
 import sys
 import tempfile
 
+from infer.core.text import caution_sentence
+
 __all__ = ["add_arguments", "run", "parse_options", "compute"]
 
 INHERITANCE = ("autosomal", "x-linked")
@@ -148,8 +150,7 @@ def compute(options: dict) -> dict:
     """Every reported quantity for one locus, as a JSON-ready dict (NaN -> None later)."""
     import numpy as np
 
-    from infer.core import approximations
-    from infer.core import balance
+    from infer.core import approximations, balance
 
     mu, s, h, F, nu = (options[k] for k in ("mu", "s", "h", "F", "nu"))
     penetrance = options["penetrance"]
@@ -282,7 +283,7 @@ def render_table(result: dict) -> str:
         if "probability_absent" in result:
             lines.append(f"  probability the allele is absent from {result['sample']} "
                          f"copies: {_format(result['probability_absent'], 6)}")
-    lines += ["", "Research calculation, not a clinical or genetic-counselling result."]
+    lines += ["", caution_sentence()]
     return "\n".join(lines) + "\n"
 
 
@@ -297,8 +298,7 @@ def write_plot(options: dict, path: str) -> None:
     import matplotlib.pyplot as plt
     import numpy as np
 
-    from infer.core import approximations
-    from infer.core import balance
+    from infer.core import approximations, balance
 
     mu, s, F, nu = (options[k] for k in ("mu", "s", "F", "nu"))
     h = np.linspace(0.0, 1.0, 501)

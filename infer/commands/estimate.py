@@ -61,8 +61,8 @@ def run(args) -> int:
 
 def _estimate_into_folder(args, plotter):
     """Read and check the study and the destination, sample, write the report folder."""
-    from infer.reporting.folder import check_destination
     from infer.files.study import load_study
+    from infer.reporting.folder import check_destination
 
     study = load_study(args.study)
     out = Path(args.out) if args.out else default_out(args.study)

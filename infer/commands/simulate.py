@@ -106,8 +106,8 @@ def run(args) -> int:
     import numpy as np
 
     from infer.core.drift import stationary as drift
-    from infer.errors import InputError
     from infer.core.wright_fisher import wright_fisher
+    from infer.errors import InputError
 
     seed = args.seed if args.seed is not None else int(np.random.SeedSequence().entropy % 2**63)
     try:

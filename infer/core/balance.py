@@ -25,7 +25,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from infer.errors import InputError
 from infer.core.roots import (
     _as_float,
     _cubic_sign_is_positive,
@@ -33,6 +32,8 @@ from infer.core.roots import (
     _take,
     _valid,
 )
+from infer.errors import InputError
+
 __all__ = [
     "AutosomalBalance",
     "XLinkedBalance",

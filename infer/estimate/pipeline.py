@@ -11,9 +11,9 @@ from collections.abc import Callable
 
 import numpy as np
 
-from infer.model.posterior import Model
 from infer.estimate.results import EstimateResult, summarise
 from infer.inference.sampling import SamplerSettings, run_to_convergence
+from infer.model.posterior import Model
 
 __all__ = ["DEFAULT_SEED", "estimate", "sampler_settings"]
 

@@ -11,8 +11,8 @@ from typing import Any
 
 import numpy as np
 
-from infer.model.priors.parsing import Fixed
 from infer.inference.sampling import SamplingRun
+from infer.model.priors.parsing import Fixed
 
 __all__ = [
     "EstimateResult",

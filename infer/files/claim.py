@@ -53,6 +53,7 @@ from pathlib import Path
 from typing import Any
 
 from infer.errors import InputError
+from infer.files.study import Study, parse_study
 from infer.model.priors.parsing import (
     PARAMETERS,
     SUPPORT,
@@ -61,11 +62,16 @@ from infer.model.priors.parsing import (
     Uniform,
     parse_parameter,
 )
-from infer.files.study import Study, parse_study
 from infer.validate import (
     check_keys as _check_keys,
+)
+from infer.validate import (
     choice as _choice,
+)
+from infer.validate import (
     quote_value as _fmt,
+)
+from infer.validate import (
     real_number as _real,
 )
 

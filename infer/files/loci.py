@@ -32,12 +32,11 @@ import numpy as np
 
 from infer.errors import InputError
 
-__all__ = ["REQUIRED", "OPTIONAL", "CAUTION", "LociTable", "read_loci", "write_report",
+__all__ = ["REQUIRED", "OPTIONAL", "LociTable", "read_loci", "write_report",
            "loci_rows", "make_figures", "describe_skipped", "ChunkStore"]
 
 REQUIRED = ("locus", "observed", "sampled", "mu")
 OPTIONAL = ("mu_lower", "mu_upper")
-CAUTION = "research estimate, not a clinical or genetic-counselling result"
 
 
 @dataclass
@@ -224,7 +223,7 @@ def make_figures(table: LociTable, result, prior_curve):
 
     ``prior_curve`` is ``(log10 s_het, density per log10 unit)`` of the prior used.
     """
-    from matplotlib.figure import Figure   # no pyplot: a user's backend is left alone
+    from matplotlib.figure import Figure  # no pyplot: a user's backend is left alone
 
     loci = result.loci
     ok = np.isfinite(loci["median"])

@@ -40,6 +40,7 @@ from typing import Any
 import numpy as np
 
 from infer.errors import InputError
+from infer.model.balance_state import State
 from infer.model.observations.kinds import Estimate, Observation, parse_observation
 from infer.model.priors.parsing import (
     PARAMETERS,
@@ -48,11 +49,16 @@ from infer.model.priors.parsing import (
     defaults_for,
     parse_parameter,
 )
-from infer.model.balance_state import State
 from infer.validate import (
     check_keys as _check_keys,
+)
+from infer.validate import (
     choice as _choice,
+)
+from infer.validate import (
     quote_value as _fmt,
+)
+from infer.validate import (
     real_number as _real,
 )
 

@@ -18,8 +18,8 @@ import dataclasses
 import numpy as np
 
 from infer.core import balance
-from infer.model.posterior import Model
 from infer.model.observations.kinds import parse_observation, x_linked_daughter_genotypes
+from infer.model.posterior import Model
 
 __all__ = ["draw_truth", "simulate_study", "posterior_cdf_at_truth", "coverage",
            "uniformity_p_value", "rank_band"]

@@ -17,8 +17,8 @@ from collections.abc import Mapping
 import numpy as np
 
 from infer.core.drift import stationary as drift
-from infer.model.priors.parsing import PARAMETERS, Fixed
 from infer.model.balance_state import State
+from infer.model.priors.parsing import PARAMETERS, Fixed
 
 __all__ = ["Model"]
 

@@ -2,18 +2,9 @@
 
 from __future__ import annotations
 
-import math
+from infer.core.text import CAUTION, CAUTION_LINE, fmt
 
-__all__ = ["CAUTION", "CAUTION_LINE", "fmt", "report_markdown", "terminal_summary"]
-
-CAUTION = (
-    "**Caution.** This is a research estimate under a population-genetic model, not a "
-    "clinical or genetic-counselling result. Do not use it for decisions about patients "
-    "or families; defer to licensed clinical practice and local rules."
-)
-
-#: the one-line form, for terminals and file attributes
-CAUTION_LINE = "research estimate, not a clinical or genetic-counselling result"
+__all__ = ["report_markdown", "terminal_summary"]
 
 _UNITS = {
     "mu": "per gene copy per generation",
@@ -38,22 +29,6 @@ _DERIVED = {
     "q_mean_drift": "mean allele frequency under drift (Wright's density)",
     "q_median_drift": "median allele frequency under drift",
 }
-
-
-def fmt(value, digits: int = 3) -> str:
-    """Format a number compactly (scientific below 1e-3), '—' for missing."""
-    if value is None:
-        return "—"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    v = float(value)
-    if not math.isfinite(v):
-        return "—"
-    if v == 0:
-        return "0"
-    if abs(v) < 1e-3 or abs(v) >= 1e5:
-        return f"{v:.{digits - 1}e}"
-    return f"{v:.{digits}g}"
 
 
 def _table(header: list[str], rows: list[list[str]]) -> list[str]:

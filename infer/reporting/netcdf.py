@@ -23,7 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
-from infer.reporting.markdown import CAUTION_LINE
+from infer.core.text import CAUTION_LINE
 
 __all__ = ["netcdf_groups", "to_datatree", "write_netcdf"]
 

@@ -31,9 +31,9 @@ from __future__ import annotations
 from typing import Any
 
 from infer.errors import InputError
+from infer.model.observations.base import Observation, x_linked_daughter_genotypes
 from infer.model.observations.frequency import Affected, AlleleCount, GenotypeCount
 from infer.model.observations.rates import Estimate, Fertility, Sporadic
-from infer.model.observations.base import Observation, x_linked_daughter_genotypes
 from infer.validate import choice, quote_value
 
 __all__ = [

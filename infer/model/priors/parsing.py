@@ -55,6 +55,7 @@ from typing import Any
 
 import numpy as np
 
+from infer.core.supports import PARAMETERS, SUPPORT, in_support, support_text
 from infer.errors import InputError
 from infer.model.priors.families import (
     FAMILIES,
@@ -66,7 +67,6 @@ from infer.model.priors.families import (
     Prior,
     Uniform,
 )
-from infer.core.supports import PARAMETERS, SUPPORT, in_support, support_text
 from infer.validate import check_keys, choice, one_of, quote_value, real_number
 
 __all__ = [

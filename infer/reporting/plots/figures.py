@@ -17,11 +17,14 @@ from __future__ import annotations
 import pathlib
 
 from infer.reporting.plots.common import DPI, PARAMETER_LABELS, axis_label
-from infer.reporting.plots.fit import balance_figure, predictive_figure
-from infer.reporting.plots.posterior import marginals_figure, pairs_figure, trace_figure
 
 # the exact binomial interval of the balance plot, tested as plots._clopper_pearson
-from infer.reporting.plots.fit import _clopper_pearson  # noqa: F401
+from infer.reporting.plots.fit import (
+    _clopper_pearson,  # noqa: F401
+    balance_figure,
+    predictive_figure,
+)
+from infer.reporting.plots.posterior import marginals_figure, pairs_figure, trace_figure
 
 __all__ = ["PLOT_FILES", "PARAMETER_LABELS", "axis_label", "make_figures", "write_plots"]
 

@@ -142,7 +142,7 @@ def test_missing_study_file(tmp_path, capsys):
     _assert_one_line(status, err, "absent.toml")
 
 
-CLAIM = (Path(__file__).resolve().parents[1] / "data_demo" /
+CLAIM = (Path(__file__).resolve().parents[2] / "data_demo" /
          "claim-northholm-indirect.toml").read_text(encoding="utf-8")
 
 CLAIM_CASES = [

@@ -19,7 +19,7 @@ from infer.inference.grid import grid_posterior
 from infer.model.posterior import Model
 from infer.files.study import load_study
 
-DEMO = Path(__file__).resolve().parents[1] / "data_demo"
+DEMO = Path(__file__).resolve().parents[2] / "data_demo"
 
 
 def test_rank_helpers_on_known_inputs():

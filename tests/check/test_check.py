@@ -32,7 +32,7 @@ from infer.check.run import check_claim
 from infer.files.claim import load_claim, parse_claim
 from infer.errors import InputError
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 
 
 def _claim_text(parameters: str, observations: str, claimed: str = "", head: str = "") -> str:

@@ -30,7 +30,7 @@ from scipy import integrate, optimize, special, stats
 from infer.batch import run as batch
 from infer.cli import main
 
-ROOT = Path(__file__).resolve().parents[1]
+ROOT = Path(__file__).resolve().parents[2]
 _spec = importlib.util.spec_from_file_location("make_batch_demo",
                                                ROOT / "benchmarks" / "make_batch_demo.py")
 demo = importlib.util.module_from_spec(_spec)
