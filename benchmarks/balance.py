@@ -62,7 +62,7 @@ def median_seconds(function, runs=RUNS):
 
 
 def autosomal_step(q, mu, s, h, F, nu):
-    """One generation of the autosomal life cycle (DESIGN.md section 2), plain floats."""
+    """One generation of the autosomal life cycle (docs/model.md), plain floats."""
     p = 1.0 - q
     het, hom = 2.0 * p * q * (1.0 - F), q * q * (1.0 - F) + q * F
     w = 1.0 - s * (h * het + hom)

@@ -1,6 +1,6 @@
 """Throughput and accuracy of infer.core.drift.stationary on parameter arrays.
 
-Prints, for 1e3 and 1e4 parameter rows drawn over DESIGN.md's range, the median wall time
+Prints, for 1e3 and 1e4 parameter rows drawn over the range of docs/model.md, the median wall time
 of several runs of log_normaliser and log_binomial_probability (one allele-count
 log-likelihood: the goal is <= 0.1 s for 10,000 rows on one core), per-row cost, the cost
 relative to a baseline of the same size (numpy's scipy.special.betaln on the rows, the

@@ -3,7 +3,7 @@
 Prints the median wall and CPU seconds of ``write_plots`` over several runs for one,
 two and three free parameters, beside a baseline measured in the same run: saving
 one empty single-axes figure at the same dpi (the least any PNG costs here). The
-synthetic results are those of tests/test_plots.py.
+synthetic results are those of tests/reporting/test_plots.py.
 
     .venv/bin/python benchmarks/plots.py [--runs 5]
 """
@@ -19,7 +19,7 @@ import tempfile
 import time
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
-sys.path[:0] = [str(ROOT), str(ROOT / "tests")]
+sys.path[:0] = [str(ROOT), str(ROOT / "tests" / "reporting")]
 
 
 def _timed(function, runs: int) -> tuple[float, float]:
@@ -40,13 +40,13 @@ def main() -> None:
     import matplotlib
 
     matplotlib.use("Agg")
-    from matplotlib.figure import Figure
     from test_plots import _make_result
 
     from infer.reporting.plots import figures as plots
+    from infer.reporting.plots.save import new_figure, plain_text
 
     def empty_figure():
-        figure = Figure(figsize=(6, 4), dpi=100)
+        figure = new_figure(figsize=(6, 4), dpi=100)
         figure.subplots()
         figure.savefig(io.BytesIO(), format="png", dpi=100)
 
@@ -63,7 +63,8 @@ def main() -> None:
         with tempfile.TemporaryDirectory() as folder:
             wall, cpu = _timed(lambda r=result: plots.write_plots(r, pathlib.Path(folder)),
                                args.runs)
-        build_wall, _ = _timed(lambda r=result: plots.make_figures(r), args.runs)
+        with plain_text():
+            build_wall, _ = _timed(lambda r=result: plots.estimate_figures(r), args.runs)
         print(f"{len(free)} free ({', '.join(free)}): five plots wall {wall:.2f} s "
               f"(building {build_wall:.2f} s), cpu {cpu:.2f} s = {wall / base_wall:.1f} "
               f"empty figures")

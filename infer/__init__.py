@@ -1,9 +1,119 @@
 """qhat: mutation-selection balance inference.
 
-Import the library modules directly (``from infer import balance``); this package
-module stays light so that the command line starts fast.
+The front door for Python users: everything the command line does, by name::
+
+    import infer
+
+    study = infer.parse_study({...})          # or infer.load_study("study.toml")
+    result = infer.estimate_study(study)      # shows a table in Jupyter
+    infer.write_report(result, "reports/my-study")
+    result.to_datatree(); result.plot()
+    infer.check_claim(infer.load_claim("claim.toml")).consistent
+    infer.batch_loci("loci.csv")              # a pandas DataFrame, one row per locus
+
+Each name is imported from its home module the first time it is used (PEP 562), so
+``import infer`` stays light and ``qhat --help`` starts fast. Results are research
+estimates, not clinical or genetic-counselling results.
+
+The estimate, check and batch jobs live in the sub-packages ``infer.estimate``,
+``infer.check`` and ``infer.batch``; the face's names for them (``estimate_study``,
+``check_claim``, ``batch_loci``) differ, because importing a sub-package rebinds its
+name on this module.
 """
+
+from __future__ import annotations
+
+import importlib
 
 __version__ = "0.1.0"
 
-__all__ = ["__version__"]
+#: face name -> (home module, name there)
+_HOMES = {
+    # files
+    "load_study": ("infer.files.study", "load_study"),
+    "parse_study": ("infer.files.study", "parse_study"),
+    "study_document": ("infer.files.study", "study_document"),
+    "load_claim": ("infer.files.claim", "load_claim"),
+    "parse_claim": ("infer.files.claim", "parse_claim"),
+    "read_loci": ("infer.files.loci", "read_loci"),
+    # the jobs
+    "write_report": ("infer.reporting.report", "write_report"),
+    "check_claim": ("infer.check.run", "check_claim"),
+    "batch_loci": ("infer.batch.frame", "batch_loci"),
+    # equilibrium
+    "q_hat": ("infer.core.balance", "q_hat"),
+    "autosomal_balance": ("infer.core.balance", "autosomal_balance"),
+    "x_linked_balance": ("infer.core.x_linked", "x_linked_balance"),
+    "affected_fraction": ("infer.core.balance", "affected_fraction"),
+    "autosomal_approximations": ("infer.core.approximations", "autosomal_approximations"),
+    "x_linked_approximations": ("infer.core.approximations", "x_linked_approximations"),
+    # drift
+    "stationary_density": ("infer.core.drift.stationary", "stationary_density"),
+    "stationary_summary": ("infer.core.drift.stationary", "stationary_summary"),
+    "stationary_quantile": ("infer.core.drift.stationary", "stationary_quantile"),
+    "log_binomial_probability": ("infer.core.drift.stationary", "log_binomial_probability"),
+    "probability_absent": ("infer.core.drift.stationary", "probability_absent"),
+    "simulate": ("infer.core.wright_fisher", "wright_fisher"),
+    # errors
+    "InputError": ("infer.errors", "InputError"),
+}
+
+__all__ = ["__version__", "estimate_study", *_HOMES]
+
+
+def estimate_study(study, seed: int | None = None, *, settings=None, progress=None,
+                   grid: bool = True):
+    """Sample the posterior of a study to convergence: ``qhat estimate`` without the files.
+
+    Parameters
+    ----------
+    study : infer.files.study.Study, dict, str or os.PathLike
+        A study from :func:`parse_study` or :func:`load_study`; a dict is given to
+        :func:`parse_study`, a path to :func:`load_study`.
+    seed : int, optional
+        Overrides the study's ``[sampler] seed`` (same seed, same summary as the command).
+    settings : infer.inference.sampling.SamplerSettings, optional
+        Overrides the study's ``[sampler]`` table.
+    progress : callable, optional
+        ``progress(steps, max_steps)`` after each block of steps.
+    grid : bool
+        Compute the exact quadrature cross-check (one or two free parameters).
+
+    Returns
+    -------
+    infer.reporting.notebook.EstimateReport
+        The :class:`~infer.estimate.results.EstimateResult` (``.summary`` is summary.json)
+        with ``.to_datatree()``, ``.plot()`` and ``.timing``; pass it to
+        :func:`write_report` for the report folder.
+    """
+    from infer.estimate.pipeline import estimate
+    from infer.files.study import Study, load_study, parse_study
+    from infer.reporting.notebook import EstimateReport
+
+    if isinstance(study, dict):
+        study = parse_study(study)
+    elif not isinstance(study, Study):
+        study = load_study(study)
+    result, timing = estimate(study, seed=seed, settings=settings, progress=progress, grid=grid)
+    return EstimateReport.from_result(result, timing)
+
+
+#: sub-packages whose job has a differently named front door
+_JOB_NAMES = {"estimate": "estimate_study", "check": "check_claim", "batch": "batch_loci"}
+
+
+def __getattr__(name: str):
+    """Import a face name from its home module on first use (PEP 562)."""
+    if name in _HOMES:
+        module, attribute = _HOMES[name]
+        value = getattr(importlib.import_module(module), attribute)
+        globals()[name] = value   # later look-ups skip this function
+        return value
+    hint = f" (the {name} job's front door is infer.{_JOB_NAMES[name]})" \
+        if name in _JOB_NAMES else ""
+    raise AttributeError(f"module 'infer' has no attribute {name!r}{hint}")
+
+
+def __dir__() -> list[str]:
+    """The face names (``__all__``) and whatever is already loaded."""
+    return sorted(set(globals()) | set(__all__))

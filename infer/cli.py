@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import re
 import sys
 
 __all__ = ["main", "COMMANDS"]
@@ -28,9 +29,14 @@ EXIT_OK, EXIT_INPUT, EXIT_INCONSISTENT = 0, 2, 3
 
 
 class _Parser(argparse.ArgumentParser):
-    """Argument parser whose usage errors are one line and exit status 2."""
+    """Argument parser whose usage errors are one line and exit status 2.
+
+    argparse's ``argument --mu: expected one argument`` becomes ``--mu: expected one
+    argument``, the shape of every other option error (:mod:`infer.commands.options`).
+    """
 
     def error(self, message: str):  # noqa: D102 - argparse hook
+        message = re.sub(r"^argument ([^:]+): ", r"\1: ", " ".join(message.split()))
         self.exit(EXIT_INPUT, f"qhat: error: {message}\n")
 
 

@@ -3,8 +3,8 @@
 Every check raises :class:`~infer.errors.InputError` with ``field`` set and the bad
 value quoted as the user wrote it (:func:`quote_value`); a value outside a fixed set
 names the set (``must be one of ...``, :func:`one_of`).  Used by
-:mod:`infer.model.priors.parsing`, :mod:`infer.model.observations.kinds`, :mod:`infer.files.study` and
-:mod:`infer.files.claim`.
+:mod:`infer.model.priors.parsing`, :mod:`infer.model.observations.kinds`,
+:mod:`infer.files.study` and :mod:`infer.files.claim`.
 """
 
 from __future__ import annotations

@@ -55,11 +55,9 @@ def _log1m_exp(log_q):
 
 def _log_binomial_peak(k, n):
     """Maximum over q of log C(n,k) q^k (1-q)^(n-k), attained at q = k/n."""
-    from scipy import special
+    from infer.core.stats import log_binomial, log_choose
 
-    log_choose = special.gammaln(n + 1) - special.gammaln(k + 1) - special.gammaln(n - k + 1)
-    p = k / n
-    return log_choose + special.xlogy(k, p) + special.xlog1py(n - k, -p), log_choose
+    return log_binomial(k, n, k / n), log_choose(n, k)
 
 
 def _log_binomial_lattice(k, n, mu, r, settings):

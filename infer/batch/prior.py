@@ -1,6 +1,6 @@
 """Shared prior on s_het for ``qhat batch``: families and the empirical-Bayes fit.
 
-See infer/batch.py's docstring for the hierarchical model; ``settings`` is an
+See :mod:`infer.batch.run`'s docstring for the hierarchical model; ``settings`` is an
 ``infer.batch.run.BatchSettings``.
 """
 
@@ -55,6 +55,11 @@ class FittedPrior:
     se_log_sigma: float
     at_search_edge: bool
     search: dict = field(default_factory=dict)
+
+    @property
+    def log_bayes_factor(self) -> float:
+        """Log Bayes factor of the fitted log-normal against the log-uniform prior."""
+        return self.log_marginal - self.log_marginal_uniform
 
 
 def trapezoid_weights(settings):

@@ -11,7 +11,7 @@ Convention
 ``s_het = h·s`` with additive fitnesses, ``h = 1/2``: Aa has fitness 1 − s_het and
 aa 1 − 2·s_het (s = 2·s_het, so s_het ≤ 1/2). Homozygotes are therefore not ignored
 but treated additively; for rare alleles they hardly ever occur and any other choice
-changes q by O(q²). With h = 1/2 the quadratic of DESIGN.md section 2 (F = 0, nu = 0)
+changes q by O(q²). With h = 1/2 the quadratic of docs/model.md (F = 0, nu = 0)
 loses its q² term, (1−2h)s = 0, leaving hs(1+mu)·q = mu, so the exact balance is
 
     q_hat = mu / (s_het·(1 + mu)) = mu' / s_het,   mu' = mu/(1 + mu)     (derived)
@@ -25,7 +25,8 @@ Models
 ------
 *deterministic*: k ~ Binomial(n, q_hat(mu, s_het)).
 *drift*: k integrated over Wright's stationary density with effective size Ne
-(``infer.core.drift.stationary.log_binomial_probability`` with s = 2·s_het, h = 1/2, back mutation nu).
+(``infer.core.drift.stationary.log_binomial_probability`` with s = 2·s_het, h = 1/2,
+back mutation nu).
 
 Quadrature
 ----------
@@ -69,8 +70,10 @@ posterior median of s_het) and ``FLAGS``.
 
 Layout: this module holds the settings, the chunk driver (``analyse``, ``run_chunk``)
 and re-exports the pieces: ``infer.batch.likelihood`` (grids), ``infer.batch.prior``
-(prior families, empirical-Bayes fit), ``infer.batch.summary`` (per-locus summaries);
-files are read and written by ``infer.files.loci``.
+(prior families, empirical-Bayes fit), ``infer.batch.summary`` (per-locus summaries).
+``infer.batch.report`` gathers a finished run into a ``BatchReport``,
+``infer.batch.chunk_store`` keeps chunks on disk between passes; the loci file is read
+by ``infer.files.loci`` and the report folder written by ``infer.reporting.batch_report``.
 """
 
 from __future__ import annotations
@@ -174,11 +177,9 @@ def mu_sigma_from_interval(lower, upper, level=0.95):
 
     NaN bounds give 0 (mu known exactly).
     """
-    from scipy import special
+    from infer.core.stats import central_z, sigma_of_log
 
-    z = math.sqrt(2.0) * special.erfinv(level)
-    lower, upper = np.asarray(lower, dtype=float), np.asarray(upper, dtype=float)
-    sigma = (np.log(upper) - np.log(lower)) / (2.0 * z)
+    sigma = sigma_of_log(lower, upper, z=central_z(level))
     return np.where(np.isfinite(sigma), sigma, 0.0)
 
 

@@ -8,10 +8,9 @@ import numpy as np
 
 from infer.batch.likelihood import _log_binomial_lattice
 from infer.batch.prior import SHetPrior, trapezoid_weights
+from infer.core.stats import Z975
 
 __all__ = ["posterior_summary", "FLAGS"]
-
-_Z975 = 1.959963984540054   # standard normal 97.5 % quantile (flag 2 uses mu's upper 97.5 % point)
 
 FLAGS = {
     1: ("zero-observed", "zero observed: only a lower bound on s_het"),
@@ -137,7 +136,7 @@ def posterior_summary(likelihood, log_scale, prior: SHetPrior, settings,
         expected = _drift_expected(k, n, mu, np.exp(median), settings)
     else:
         expected = _expected_count(k, n, mu, mu_sigma, prior, settings)
-    mu_upper = mu * np.exp(_Z975 * mu_sigma)
+    mu_upper = mu * np.exp(Z975 * mu_sigma)   # mu's upper 97.5 % point (flag 2)
     flags = np.zeros(k.shape, dtype=np.int64)
     flags |= np.where(k == 0, 1, 0)
     flags |= np.where(k / n > mu_upper / (1.0 + mu_upper) / settings.s_low, 2, 0)

@@ -13,14 +13,15 @@ import math
 import numpy as np
 
 from infer.core import balance
+from infer.core.stats import central_tails
 from infer.files.claim import Claim
-from infer.model.balance_state import State
-from infer.model.observations.kinds import x_linked_daughter_genotypes
+from infer.model.balance_state import BalanceState
+from infer.model.observations.base import x_linked_daughter_genotypes
 
 __all__ = ["implied_quantities", "drift_moments", "implied_values"]
 
 
-def implied_quantities(claim: Claim, state: State) -> dict[str, np.ndarray]:
+def implied_quantities(claim: Claim, state: BalanceState) -> dict[str, np.ndarray]:
     """Frequencies, load and incidence of each row of a deterministic state.
 
     Keys: ``q_hat``, ``load``, ``carrier_frequency`` and ``incidence_<mode>``; X-linked
@@ -60,7 +61,7 @@ def drift_moments(claim: Claim) -> dict:
     return out
 
 
-def implied_values(claim: Claim, state: State, sampled) -> dict:
+def implied_values(claim: Claim, state: BalanceState, sampled) -> dict:
     """Implied quantities at the claim, their intervals over ``sampled`` draws if given."""
     implied = {name: float(value[0]) for name, value in implied_quantities(claim, state).items()}
     if claim.study.model == "drift":
@@ -75,6 +76,6 @@ def implied_values(claim: Claim, state: State, sampled) -> dict:
         for name, values in implied_quantities(claim, rows).items():
             finite = np.asarray(values)[rows.exists]
             if finite.size:
-                lower, upper = np.quantile(finite, [(1 - level) / 2, (1 + level) / 2])
+                lower, upper = np.quantile(finite, central_tails(level))
                 implied["uncertainty"][name] = {"lower": float(lower), "upper": float(upper)}
     return implied

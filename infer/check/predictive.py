@@ -12,15 +12,12 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special
 
 from infer.check.findings import Finding
 from infer.check.implied import drift_moments
-from infer.core import balance
+from infer.core.stats import log_binomial, two_sided_p_value
 from infer.core.text import fmt
-from infer.estimate.results import two_sided_p_value
 from infer.files.claim import Claim
-from infer.model.balance_state import State
 
 __all__ = ["statement_findings", "observation_finding", "SIMULATED_DRAWS", "DRIFT_TAIL_TERMS"]
 
@@ -28,13 +25,6 @@ __all__ = ["statement_findings", "observation_finding", "SIMULATED_DRAWS", "DRIF
 SIMULATED_DRAWS = 20_000
 #: largest number of counts summed for an exact tail under the drift model
 DRIFT_TAIL_TERMS = 2000
-
-
-def _log_binomial_pmf(k, n, p):
-    """Log of C(n, k) p^k (1-p)^(n-k), broadcasting k and p."""
-    k = np.asarray(k, dtype=float)
-    return (special.gammaln(n + 1.0) - special.gammaln(k + 1.0) - special.gammaln(n - k + 1.0)
-            + special.xlogy(k, p) + special.xlog1py(n - k, -p))
 
 
 def _statement_target(claim: Claim, name: str) -> str:
@@ -95,90 +85,47 @@ def statement_findings(claim: Claim, implied: dict, threshold: float) -> list[Fi
 # --------------------------------------------------------------- predictive checks
 
 
-def _binomial_parts(observation, expected):
-    """(trials, success probability per row) where the statistic is binomial, else None."""
-    kind = observation.kind
-    if kind == "affected":
-        n = observation.total
-    elif kind == "sporadic":
-        n = observation.births
-    elif kind == "allele-count":
-        n = observation.sampled
-    elif kind == "fertility":
-        n = observation.total_children
-    elif kind == "genotype-count" and observation.inheritance == "autosomal":
-        n = 2 * observation.total  # allele copies of people in Hardy-Weinberg proportions
-    else:
-        return None
-    return n, np.asarray(expected, dtype=float) / n if n else np.zeros_like(expected)
-
-
 def _tails(observation, state, rng) -> tuple[float, float, str]:
-    """(P(T <= t), P(T >= t)) averaged over the rows of ``state``, and the method."""
-    t = observation.statistic()
-    if observation.kind == "estimate":
-        theta = np.asarray(state.params[observation.parameter], dtype=float)
-        z = (math.log(t) - np.log(theta)) / observation.sigma
-        lower = float(np.mean(special.ndtr(z)))
-        return lower, 1.0 - lower, "log-normal"
-    expected = observation.expected(state)
-    parts = _binomial_parts(observation, expected)
-    genotype_inbred = (observation.kind == "genotype-count"
-                       and np.any(state.params["F"] > 0))
-    if parts is not None and not genotype_inbred:
-        n, p = parts
-        good = np.isfinite(p)
-        if not good.any():
-            return math.nan, math.nan, "binomial"
-        p = np.clip(p[good], 0.0, 1.0)
-        # bdtr(k, n, p) = P(T <= k), bdtrc(k, n, p) = P(T > k) (scipy.special)
-        upper = special.bdtrc(t - 1, n, p) if t >= 1 else np.ones_like(p)
-        return (float(np.mean(special.bdtr(t, n, p))), float(np.mean(upper)), "binomial")
+    """(P(T <= t), P(T >= t)) averaged over the rows of ``state``, and the method.
+
+    The kind's exact tails where its statistic has a closed form
+    (:meth:`~infer.model.observations.base.Observation.predictive_tails`), else
+    ``SIMULATED_DRAWS`` predictive draws.
+    """
+    tails = observation.predictive_tails(state)
+    if tails is not None:
+        return tails
     repeat = max(1, SIMULATED_DRAWS // state.n)
-    tiled = State(**{**state.__dict__,
-                     "params": {k: np.tile(v, repeat) for k, v in state.params.items()},
-                     "q": np.tile(state.q, repeat),
-                     "q_male": None if state.q_male is None else np.tile(state.q_male, repeat),
-                     "q_female": None if state.q_female is None else np.tile(state.q_female,
-                                                                              repeat),
-                     "exists": np.tile(state.exists, repeat), "balance": None})
-    replicated = observation.simulate(tiled, rng)
-    p_value = two_sided_p_value(replicated, t)
+    replicated = observation.simulate(state.tile(repeat), rng)
+    p_value = two_sided_p_value(replicated, observation.statistic())
     return p_value / 2, p_value / 2, "simulated"
 
 
 def _drift_tails(claim: Claim, observation) -> tuple[float, float, float]:
     """Exact tails under Wright's density for a frequency count (point claim).
 
-    P(T = k) = E_phi[Binomial(k; n, f(x))], summed over the shorter side of t
-    (at most ``DRIFT_TAIL_TERMS`` terms). Returns (lower, upper, expected).
+    P(T = k) = E_phi[Binomial(k; n, f(x))], f the kind's share of trials that count
+    (:class:`~infer.model.observations.share.FrequencyStatistic`), summed over the
+    shorter side of t (at most ``DRIFT_TAIL_TERMS`` terms). Returns (lower, upper,
+    expected); NaN for a kind that is not an observed share.
     """
     from infer.core.drift import stationary as drift
 
     v = claim.values
-    t = int(observation.statistic())
-    if observation.kind == "allele-count":
-        n, f = observation.sampled, lambda x: x
-    elif observation.kind == "genotype-count":
-        n, f = 2 * observation.total, lambda x: x
-    else:
-        n = observation.total
-
-        def f(x):
-            return balance.affected_fraction(observation.mode, x, 0.0, observation.penetrance)
+    statistic = observation.frequency_statistic()
+    if statistic is None:
+        return math.nan, math.nan, math.nan
+    t, n = statistic.count, statistic.trials
     moments = drift_moments(claim)
     m, second = moments["mean"], moments["sd"] ** 2 + moments["mean"] ** 2
-    expected = {"allele-count": n * m, "genotype-count": n * m}.get(observation.kind)
-    if expected is None:
-        share = (2 * m - second) if observation.mode == "dominant" else second
-        expected = n * observation.penetrance * share
+    expected = statistic.expected_count(m, second)
     below = t <= n - t
     k = np.arange(0, t + 1) if below else np.arange(t, n + 1)
     if k.size > DRIFT_TAIL_TERMS:
         return math.nan, math.nan, expected
     rows = k.size
     log_p = drift.log_expectation(
-        lambda x: _log_binomial_pmf(k[:, None], n, np.clip(f(x), 0.0, 1.0)),
+        lambda x: log_binomial(k[:, None], n, np.clip(statistic.share(x), 0.0, 1.0)),
         np.full(rows, v["Ne"]), v["mu"], v["s"], v["h"], v["nu"])
     pmf = np.exp(log_p)
     side = float(min(1.0, pmf.sum()))
@@ -195,8 +142,8 @@ def observation_finding(claim, index, observation, rows_state, uncertain, rng, t
     claim : infer.files.claim.Claim
     index : int
         The observation's place in the file, counted from 1.
-    observation : infer.model.observations.kinds.Observation
-    rows_state : infer.model.balance_state.State
+    observation : infer.model.observations.base.Observation
+    rows_state : infer.model.balance_state.BalanceState
         The claim (one row) or draws from its stated uncertainty.
     uncertain : bool
         Whether ``rows_state`` holds draws from the claim's uncertainty.

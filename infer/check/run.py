@@ -14,7 +14,7 @@ Findings (``code``: what raises it):
   observed statistic under the claim (its stated uncertainty included): error below
   ``threshold``, warning below 5 x threshold. Tail probabilities are exact binomial (or
   log-normal) sums averaged over draws from the claim, so p-values far below 1/draws are
-  resolved; other statistics use predictive draws and ``infer.estimate.results.two_sided_p_value``
+  resolved; other statistics use predictive draws and ``infer.core.stats.two_sided_p_value``
   (Gelman, Meng & Stern 1996, Statistica Sinica 6:733).
 * ``statement-mismatch`` / ``statement-agrees``: a stated incidence, carrier frequency,
   allele frequency or load against the value the claimed parameters imply.
@@ -38,7 +38,9 @@ Findings (``code``: what raises it):
 The findings are made in :mod:`infer.check.predictive` (observations, statements),
 :mod:`infer.check.intervals` (intervals implied by the data) and
 :mod:`infer.check.trade` (approximations, drift, measured rates, alternatives); the
-implied quantities in :mod:`infer.check.implied`. Everything is importable from here.
+implied quantities in :mod:`infer.check.implied`, the balance curve against mu in
+:mod:`infer.check.balance_curve`. Each name is imported from the module that defines
+it; the renderers are in :mod:`infer.reporting.check_report`.
 """
 
 from __future__ import annotations
@@ -49,53 +51,26 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
+from infer.check.balance_curve import ClaimBalanceCurve, claim_balance_curve
 from infer.check.findings import SEVERITIES, Finding, claimed_text
-from infer.check.implied import implied_quantities, implied_values
-
-# public constants of infer.check.run, now kept beside the code that uses them
-from infer.check.intervals import (
-    DRIFT_GRID_POINTS,  # noqa: F401
-    implied_intervals,
-)
-from infer.check.predictive import (  # noqa: F401
-    DRIFT_TAIL_TERMS,
-    SIMULATED_DRAWS,
-    observation_finding,
-    statement_findings,
-)
-from infer.check.trade import (  # noqa: F401
-    DRIFT_ERROR,
-    DRIFT_WARNING,
-    NUCLEOTIDE_MARGIN,
-    PER_LOCUS_RANGE,
-    PER_NUCLEOTIDE_RANGE,
-    RARE_ERROR,
-    RARE_WARNING,
-    SINGLE_SITE_RATE,
-    TRADE_MARGIN,
+from infer.check.implied import implied_values
+from infer.check.intervals import implied_intervals
+from infer.check.predictive import observation_finding, statement_findings
+from infer.check.trade import (
     alternative_explanations,
     approximation_findings,
     drift_findings,
     trade_findings,
 )
+from infer.core.stats import sd_of_interval, sigma_of_log
 from infer.files.claim import Claim
-from infer.model.balance_state import State
+from infer.model.balance_state import BalanceState
 from infer.model.priors.parsing import SUPPORT
 
-__all__ = [
-    "Finding",
-    "CheckResult",
-    "check_claim",
-    "implied_quantities",
-    "PER_LOCUS_RANGE",
-    "PER_NUCLEOTIDE_RANGE",
-    "TRADE_MARGIN",
-    "SEVERITIES",
-]
+__all__ = ["CLAIM_DRAWS", "CheckResult", "check_claim"]
 
 #: draws from the claim's stated uncertainty
 CLAIM_DRAWS = 4000
-_Z975 = 1.959963984540054
 
 
 @dataclass
@@ -115,6 +90,9 @@ class CheckResult:
         parameter intervals implied by the data (``from_data``).
     threshold : float
         The p-value below which a finding is an error.
+    balance_curve : infer.check.balance_curve.ClaimBalanceCurve
+        The quantity the first frequency observation measures against mu, the other
+        parameters held at their claimed values, with that observation's interval.
     """
 
     claim: Claim
@@ -122,12 +100,7 @@ class CheckResult:
     findings: list[Finding]
     implied: dict
     threshold: float
-
-    def as_dict(self) -> dict:
-        """``{consistent, findings, implied}`` for ``--json``."""
-        return {"consistent": self.consistent,
-                "findings": [f.as_dict() for f in self.findings],
-                "implied": self.implied}
+    balance_curve: ClaimBalanceCurve
 
     def count(self, severity: str) -> int:
         """Number of findings of one severity."""
@@ -157,8 +130,8 @@ def check_claim(claim: Claim, *, threshold: float = 0.01, draws: int = CLAIM_DRA
     sampled = _claim_draws(claim, rng, draws) if claim.intervals else None
     findings: list[Finding] = []
     with np.errstate(all="ignore"):
-        state = State.deterministic(point, claim.inheritance)
-        rows = state if sampled is None else State.deterministic(sampled, claim.inheritance)
+        state = BalanceState.deterministic(point, claim.inheritance)
+        rows = state if sampled is None else BalanceState.deterministic(sampled, claim.inheritance)
         implied = implied_values(claim, state, rows if sampled is not None else None)
         if not bool(state.exists[0]):
             findings.append(Finding(
@@ -181,7 +154,8 @@ def check_claim(claim: Claim, *, threshold: float = 0.01, draws: int = CLAIM_DRA
     order = {s: i for i, s in enumerate(SEVERITIES)}
     findings.sort(key=lambda f: order[f.severity])
     consistent = not any(f.severity == "error" for f in findings)
-    return CheckResult(claim, consistent, findings, implied, threshold)
+    return CheckResult(claim, consistent, findings, implied, threshold,
+                       claim_balance_curve(claim, implied))
 
 
 def _claim_draws(claim: Claim, rng, n: int) -> dict[str, np.ndarray]:
@@ -195,11 +169,11 @@ def _claim_draws(claim: Claim, rng, n: int) -> dict[str, np.ndarray]:
         value = claim.values[name]
         low, high = SUPPORT[name]
         if name in ("mu", "Ne", "alpha"):
-            sigma = (math.log(upper) - math.log(lower)) / (2 * _Z975)
+            sigma = float(sigma_of_log(lower, upper))
             b = (math.log(high) - math.log(value)) / sigma if high < np.inf else np.inf
             out[name] = value * np.exp(sigma * _truncated_normal(rng, n, -np.inf, b))
         else:
-            sd = (upper - lower) / (2 * _Z975)
+            sd = float(sd_of_interval(lower, upper))
             a, b = (low - value) / sd, (high - value) / sd
             out[name] = np.clip(value + sd * _truncated_normal(rng, n, a, b), low, high)
     return out

@@ -14,7 +14,8 @@ import math
 from infer.check.findings import Finding, claimed_text
 from infer.core.text import fmt
 from infer.files.claim import Claim
-from infer.model.balance_state import State
+from infer.model.balance_state import BalanceState
+from infer.model.observations.kinds import KINDS
 
 __all__ = [
     "approximation_findings",
@@ -55,13 +56,13 @@ DRIFT_WARNING, DRIFT_ERROR = 1.0, 0.1
 RARE_WARNING, RARE_ERROR = 0.05, 0.2
 
 
-def approximation_findings(claim: Claim, state: State, implied: dict) -> list[Finding]:
+def approximation_findings(claim: Claim, state: BalanceState, implied: dict) -> list[Finding]:
     """Judge the authors' approximation against the exact root and its rare-allele range.
 
     Parameters
     ----------
     claim : infer.files.claim.Claim
-    state : infer.model.balance_state.State
+    state : infer.model.balance_state.BalanceState
         The claim's deterministic state.
     implied : dict
         The implied quantities (the exact ``q_hat`` or ``q_male``).
@@ -141,13 +142,13 @@ def _rare_allele_finding(claim: Claim, implied: dict) -> list[Finding]:
                                             "limit_error": RARE_ERROR})]
 
 
-def drift_findings(claim: Claim, state: State, implied: dict) -> list[Finding]:
+def drift_findings(claim: Claim, state: BalanceState, implied: dict) -> list[Finding]:
     """Flag the deterministic balance where drift dominates (4Ne q_hat small).
 
     Parameters
     ----------
     claim : infer.files.claim.Claim
-    state : infer.model.balance_state.State
+    state : infer.model.balance_state.BalanceState
     implied : dict
         The implied quantities (``q_hat``, ``four_Ne_q_hat``, ``stationary``).
 
@@ -293,7 +294,7 @@ def alternative_explanations(findings: list[Finding], implied: dict) -> list[Fin
             direction = "excess" if f.details["direction"] == "above" else "deficit"
         elif f.code == "no-implied-value":
             ratios = [o["ratio"] for o in implied.get("observations", []) if
-                      o["kind"] in ("affected", "allele-count", "genotype-count")
+                      KINDS[o["kind"]].depends_on_frequency
                       and math.isfinite(o["ratio"])]
             direction = direction or ("excess" if ratios and max(ratios) > 1 else "deficit")
     if direction is None:

@@ -5,14 +5,19 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+from infer.commands import options as checks
+
+__all__ = ["add_arguments", "run", "progress_printer", "default_out"]
+
 
 def add_arguments(parser) -> None:
     """Register the options of ``qhat estimate``."""
+    checks.accept_negative_numbers(parser)
     parser.add_argument("study", metavar="STUDY.toml", help="the study file (TOML)")
     parser.add_argument("--out", metavar="DIR",
                         help="report folder (default: reports/<study file name>)")
-    parser.add_argument("--seed", type=int, metavar="N",
-                        help="random seed (overrides [sampler] seed)")
+    parser.add_argument("--seed", metavar="N",
+                        help="random seed, a whole number >= 0 (overrides [sampler] seed)")
     parser.add_argument("--force", action="store_true", help="replace an existing folder")
     parser.add_argument("--json", action="store_true", help="print summary.json to stdout")
     parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
@@ -39,12 +44,10 @@ def default_out(study_path: str) -> Path:
 
 def run(args) -> int:
     """Run ``qhat estimate``."""
-    from infer.errors import InputError
     from infer.reporting.folder import terminate_as_interrupt
     from infer.reporting.plot_process import PlotProcess
 
-    if args.seed is not None and args.seed < 0:
-        raise InputError(f"{args.seed} is negative", source="--seed")
+    args.seed = checks.seed(args.seed)
     # matplotlib is imported in a second process while this one reads the study and samples
     with terminate_as_interrupt(), PlotProcess() as plotter:
         result, out = _estimate_into_folder(args, plotter)

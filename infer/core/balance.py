@@ -1,4 +1,4 @@
-"""Exact deterministic mutation-selection equilibria (DESIGN.md section 2).
+"""Exact deterministic mutation-selection equilibria (docs/model.md, 'Autosomal equilibrium').
 
 Life cycle, census at birth: zygotes -> viability/fertility selection -> gametes with
 forward mutation A->a (rate ``mu``) and back mutation a->A (rate ``nu``) -> union with
@@ -25,6 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from infer.core.choices import MODES
 from infer.core.roots import (
     _as_float,
     _cubic_sign_is_positive,
@@ -49,7 +50,7 @@ __all__ = [
 ]
 
 #: modes of ``affected_fraction``
-AFFECTED_MODES = ("dominant", "recessive", "x-linked-male")
+AFFECTED_MODES = MODES
 
 
 
@@ -149,7 +150,7 @@ def load(q, s, h, F=0.0):
 def _closed_form_root(mu, s, h, F):
     """Stable root of (1-F)(1-2h)s q² + [(1-F)hs(1+mu) + Fs] q = mu (nu = 0).
 
-    Derivation (DESIGN.md section 2). Zygotes AA = p(1 - q(1-F)), Aa = 2pq(1-F),
+    Derivation (docs/model.md, 'Autosomal equilibrium'). Zygotes AA = p(1 - q(1-F)), Aa = 2pq(1-F),
     aa = q(q(1-F) + F). After selection the a-carrying share is N / w̄ with
 
         N = Aa(1-hs)/2 + aa(1-s) = q - s q A,   A = h p(1-F) + q(1-F) + F,

@@ -1,6 +1,6 @@
 """Wright–Fisher forward simulation of a deleterious allele under the qhat life cycle.
 
-Each generation, for every replicate at once (DESIGN.md section 2, autosomal, F = 0):
+Each generation, for every replicate at once (docs/model.md, 'Life cycle'; autosomal, F = 0):
 zygotes at frequency q in Hardy–Weinberg proportions p², 2pq, q² are selected with
 fitnesses 1, 1-hs, 1-s, giving q_sel = (pq(1-hs) + q²(1-s))/w̄; gametes mutate,
 q_gam = q_sel(1-nu) + (1-q_sel)·mu; the next zygotes are 2Ne genes drawn binomially,
@@ -95,7 +95,7 @@ def wright_fisher(
     Ne : float
         Effective size; 2Ne is rounded to whole genes (at least 1).
     mu, s, h, nu : float
-        Forward mutation, selection, dominance and back mutation (life cycle of DESIGN.md).
+        Forward mutation, selection, dominance and back mutation (docs/model.md, 'Life cycle').
     rng : numpy.random.Generator
         The only source of randomness.
     replicates, generations, burn_in, thin : int

@@ -1,4 +1,4 @@
-"""Exact X-linked mutation-selection equilibrium (DESIGN.md section 2).
+"""Exact X-linked mutation-selection equilibrium (docs/model.md, 'X-linked equilibrium').
 
 Eggs carry the deleterious allele at frequency x, X-bearing sperm at y. Daughters get
 one X of each (fitnesses 1, 1-hs, 1-s, inbreeding F on daughters only); sons get the

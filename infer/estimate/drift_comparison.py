@@ -32,7 +32,7 @@ def deterministic_twin(study):
 
 
 def _posterior_quantiles(posterior: dict, names, interval) -> dict:
-    from infer.estimate.results import central_quantiles
+    from infer.core.stats import central_quantiles
 
     return {name: dict(zip(("median", "lower", "upper"),
                            central_quantiles(posterior[name], interval), strict=True))

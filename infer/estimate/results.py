@@ -6,11 +6,14 @@ Computed once here; text, JSON, Markdown and plots only read them
 
 from __future__ import annotations
 
+import html
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
+from infer.core.stats import central_quantiles, two_sided_p_value
+from infer.core.text import CAUTION_LINE, fmt
 from infer.inference.sampling import SamplingRun
 from infer.model.priors.parsing import Fixed
 
@@ -48,40 +51,68 @@ class EstimateResult:
     log_prob: Any = None
     notes: list[str] = field(default_factory=list)
 
+    # ``summary`` is the summary.json document; the reprs below only read it. Renderers
+    # (the arviz tree, the plots) live in infer.reporting, which this layer may not
+    # import: ``infer.reporting.notebook.EstimateReport`` adds them.
 
-def two_sided_p_value(replicated: np.ndarray, observed: float) -> float:
-    """Two-sided posterior predictive p-value, ``min(1, 2 min(P(T >= t), P(T <= t)))``.
+    def _shown_rows(self) -> list[tuple[str, dict]]:
+        """(name, summary entry) of each free parameter, then q_hat."""
+        rows = [(name, self.summary["parameters"][name]) for name in self.free]
+        if "q_hat" in self.summary["derived"]:
+            rows.append(("q_hat", self.summary["derived"]["q_hat"]))
+        return rows
 
-    Counting ties on both sides keeps a discrete statistic's p-value conservative
-    (Gelman, Meng & Stern 1996, Statistica Sinica 6:733, for the posterior predictive
-    p-value; the two-sided form is common practice).
-    """
-    rep = np.asarray(replicated, dtype=float).ravel()
-    rep = rep[np.isfinite(rep)]
-    if rep.size == 0:
-        return float("nan")
-    upper = np.mean(rep >= observed)
-    lower = np.mean(rep <= observed)
-    return float(min(1.0, 2.0 * min(upper, lower)))
+    def _verdict(self) -> str:
+        diagnostics = self.summary["diagnostics"]
+        verdict = ("converged" if diagnostics["converged"]
+                   else "NOT CONVERGED: " + " ".join(diagnostics["messages"]))
+        if "grid" in self.summary:
+            agrees = self.summary["grid"]["agrees"]
+            verdict += "; exact cross-check " + ("agrees" if agrees else "DISAGREES")
+        return verdict
+
+    def _fixed_text(self) -> str:
+        fixed = [f"{name} = {fmt(p['median'])}" for name, p in self.summary["parameters"].items()
+                 if p["fixed"] and not p["defaulted"]]
+        return "fixed: " + ", ".join(fixed) if fixed else ""
+
+    def __repr__(self) -> str:
+        """A few lines: title, medians and intervals, the verdict and the caution."""
+        s = self.summary
+        lines = [f"<{type(self).__name__}: {s['title']}>",
+                 f"{s['inheritance']}, {s['model']} model; medians with "
+                 f"{100 * s['interval']:g} % equal-tailed intervals"]
+        lines += [f"  {name:<6} {fmt(p['median']):>10}  [{fmt(p['lower'])}, {fmt(p['upper'])}]"
+                  for name, p in self._shown_rows()]
+        lines += [text for text in (self._fixed_text(), self._verdict(), CAUTION_LINE) if text]
+        return "\n".join(lines)
+
+    def _repr_html_(self) -> str:
+        """The same as an HTML table (shown by Jupyter)."""
+        s = self.summary
+        cells = "".join(
+            f"<tr><td>{html.escape(name)}</td><td>{fmt(p['median'])}</td>"
+            f"<td>{fmt(p['lower'])} – {fmt(p['upper'])}</td>"
+            f"<td>{fmt(p.get('contraction'), 2)}</td></tr>"
+            for name, p in self._shown_rows())
+        fixed = self._fixed_text()
+        return (
+            f"<div><p><strong>{html.escape(s['title'])}</strong> "
+            f"({html.escape(s['inheritance'])}, {html.escape(s['model'])} model)</p>"
+            f"<table><thead><tr><th></th><th>median</th>"
+            f"<th>{100 * s['interval']:g} % interval</th><th>contraction</th></tr></thead>"
+            f"<tbody>{cells}</tbody></table>"
+            + (f"<p>{html.escape(fixed)}</p>" if fixed else "")
+            + f"<p>{html.escape(self._verdict())}</p>"
+            f"<p><em>Caution: {html.escape(CAUTION_LINE)}.</em></p></div>")
 
 
 def contraction(posterior_scaled: np.ndarray, prior_scaled: np.ndarray) -> float:
-    """``1 - sd(posterior) / sd(prior)`` on the sampling scale (DESIGN.md section 5)."""
+    """``1 - sd(posterior) / sd(prior)`` on the sampling scale (docs/model.md, 'Priors')."""
     prior_sd = float(np.std(prior_scaled))
     if not np.isfinite(prior_sd) or prior_sd == 0:
         return float("nan")
     return float(1.0 - np.std(posterior_scaled) / prior_sd)
-
-
-def central_quantiles(draws: np.ndarray, interval: float) -> tuple[float, float, float]:
-    """Median and central ``interval`` of the finite draws: (median, lower, upper)."""
-    flat = np.asarray(draws, dtype=float).ravel()
-    flat = flat[np.isfinite(flat)]
-    if flat.size == 0:
-        return (float("nan"),) * 3
-    tail = (1.0 - interval) / 2.0
-    med, lo, hi = np.quantile(flat, [0.5, tail, 1.0 - tail])
-    return float(med), float(lo), float(hi)
 
 
 def _log10(x):
@@ -241,11 +272,11 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
         predictive_state = state
         if model.drift:
             from infer.core.drift import stationary as drift
-            from infer.model.balance_state import State
+            from infer.model.balance_state import BalanceState
 
             x = drift.sample_stationary(rng, sub_params["Ne"], sub_params["mu"],
                                         sub_params["s"], sub_params["h"], sub_params["nu"])
-            predictive_state = State.at_frequency(sub_params, x)
+            predictive_state = BalanceState.at_frequency(sub_params, x)
     derived = {k: v[None, :] for k, v in derived_flat.items()}
     derived_summary = {}
     for k, v in derived.items():
@@ -269,8 +300,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
             "p_value": two_sided_p_value(rep, observed),
         })
 
-    frequency_kinds = {"allele-count", "genotype-count", "affected"}
-    frequency_only = all(o.kind in frequency_kinds for o in model.observations)
+    frequency_only = all(o.frequency_statistic() is not None for o in model.observations)
     h_prior = study.parameters["h"]
     recessive = isinstance(h_prior, Fixed) and float(h_prior.value) == 0.0
     statements = identifiability(model.free, posterior, prior, parameters, frequency_only,

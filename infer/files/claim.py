@@ -1,6 +1,6 @@
 """Claim files: a paper's published numbers, read for ``qhat check``.
 
-A claim file has the layout of a study file (DESIGN.md section 3) with every
+A claim file has the layout of a study file (docs/files.md, 'Claim files') with every
 life-cycle parameter at the value the paper claims, optionally the interval the
 authors gave, an optional ``[claimed]`` table of the frequencies, incidence and load
 the paper states and of the formula it used, and the observations it reports::
@@ -39,9 +39,11 @@ the paper states and of the formula it used, and the observations it reports::
     seed = 1                           # seed of the draws from the claim's uncertainty
 
 The authors' intervals (``lower``/``upper``) are read as central 95 % intervals. The
-observations are validated by :mod:`infer.model.observations.kinds` and the parameters by
-:mod:`infer.model.priors.parsing`, through :func:`infer.files.study.parse_study`: every problem is an
-:class:`~infer.errors.InputError` naming the file, the field and the value.
+observations are validated by :mod:`infer.model.observations.kinds` and the parameters
+by :mod:`infer.model.priors.parsing`, through :func:`infer.files.study.parse_study`: every
+problem is an :class:`~infer.errors.InputError` naming the file, the field and the value.
+The file is read by :func:`infer.files.reading.read_text` (the wording of every read or
+decoding failure).
 """
 
 from __future__ import annotations
@@ -49,10 +51,11 @@ from __future__ import annotations
 import math
 import tomllib
 from dataclasses import dataclass, field, replace
-from pathlib import Path
 from typing import Any
 
+from infer.core.choices import AUTOSOMAL_MODES, X_LINKED_MODES
 from infer.errors import InputError
+from infer.files.reading import invalid_toml, read_text
 from infer.files.study import Study, parse_study
 from infer.model.priors.parsing import (
     PARAMETERS,
@@ -199,23 +202,11 @@ def load_claim(path) -> Claim:
         Unreadable, not UTF-8 or invalid TOML, or any problem of :func:`parse_claim`.
     """
     source = str(path)
-    try:
-        raw = Path(path).read_bytes()
-    except OSError as error:
-        reason = error.strerror or type(error).__name__
-        raise InputError(f"cannot read the file: {reason}", source=source) from None
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as error:
-        raise InputError(
-            f"the file is not UTF-8 text (byte 0x{raw[error.start]:02x} at offset "
-            f"{error.start}); save it as UTF-8",
-            source=source,
-        ) from None
+    text = read_text(path)
     try:
         document = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
-        raise InputError(f"invalid TOML: {error}", source=source) from None
+        raise invalid_toml(error, source=source) from None
     return parse_claim(document, source=source)
 
 
@@ -290,8 +281,7 @@ def _parse(document: Any, source: str) -> Claim:
     }
     mode = None
     if "mode" in claimed:
-        allowed = ("x-linked-male",) if study.inheritance == "x-linked" else ("dominant",
-                                                                              "recessive")
+        allowed = X_LINKED_MODES if study.inheritance == "x-linked" else AUTOSOMAL_MODES
         mode = _choice(claimed["mode"], allowed, "claimed.mode")
     elif study.inheritance == "x-linked":
         mode = "x-linked-male"

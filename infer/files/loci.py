@@ -1,4 +1,4 @@
-"""Reading and writing for ``qhat batch``: the loci CSV in, the report folder out.
+"""Reading for ``qhat batch``: the loci CSV, validated, as a :class:`LociTable`.
 
 Input CSV (UTF-8, comma separated, one header line; blank lines and lines starting
 with ``#`` are skipped but still counted in line numbers):
@@ -18,6 +18,8 @@ Header names are matched without regard to case or surrounding spaces; other col
 are kept out of the computation and listed in ``summary.json``. Every bad row raises
 ``InputError`` with ``field="line 7, column observed"``; with ``skip_bad_rows`` each
 bad row is left out and listed instead.
+
+The report folder is written by :mod:`infer.reporting.batch_report`.
 """
 
 from __future__ import annotations
@@ -26,14 +28,13 @@ import csv
 import math
 from array import array
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
 from infer.errors import InputError
+from infer.files.reading import open_text
 
-__all__ = ["REQUIRED", "OPTIONAL", "LociTable", "read_loci", "write_report",
-           "loci_rows", "make_figures", "describe_skipped", "ChunkStore"]
+__all__ = ["REQUIRED", "OPTIONAL", "LociTable", "read_loci", "describe_skipped"]
 
 REQUIRED = ("locus", "observed", "sampled", "mu")
 OPTIONAL = ("mu_lower", "mu_upper")
@@ -118,10 +119,7 @@ def read_loci(path, *, skip_bad_rows=False) -> LociTable:
         file, a missing column in the header, or no usable row.
     """
     source = str(path)
-    try:
-        handle = open(path, newline="", encoding="utf-8-sig")
-    except OSError as error:
-        raise InputError(f"cannot read the file ({error.strerror})", source=source) from None
+    handle = open_text(path, newline="")
     errors, seen = [], {}    # seen: locus name -> line, in file order
     values = {name: array("d") for name in ("observed", "sampled", "mu", "mu_lower", "mu_upper")}
     header, index = None, None
@@ -156,8 +154,6 @@ def read_loci(path, *, skip_bad_rows=False) -> LociTable:
                 seen[parsed[0]] = line
                 for column, value in zip(values.values(), parsed[1:], strict=True):
                     column.append(value)
-        except UnicodeDecodeError:
-            raise InputError("is not UTF-8 text", source=source) from None
         except csv.Error as error:
             raise InputError(str(error), source=source, field=f"line {reader.line_num}") from None
     if header is None:
@@ -187,127 +183,3 @@ def describe_skipped(error) -> str:
     """One line for stderr about a skipped row."""
     return f"skipped {_where(error)}: {error['message']}"
 
-
-def _g(value):
-    return f"{value:.6g}" if math.isfinite(value) else ""
-
-
-def loci_rows(table: LociTable, loci: dict, flags: dict):
-    """Header and rows (lists of str) of loci.csv."""
-    yield ["locus", "observed", "sampled", "mu", "mu_lower", "mu_upper", "s_het_median",
-           "s_het_lower", "s_het_upper", "s_het_mean", "expected", "flags"]
-    bits = sorted(flags)
-    marks = {}
-    columns = [np.asarray(c, dtype=float).tolist() for c in (
-        table.observed, table.sampled, table.mu, table.mu_lower, table.mu_upper, loci["median"],
-        loci["lower"], loci["upper"], loci["mean"], loci["expected"])]
-    for i, (name, code) in enumerate(zip(table.names, np.asarray(loci["flags"]).tolist(),
-                                              strict=True)):
-        if code not in marks:
-            marks[code] = ";".join(flags[b][0] for b in bits if code & b)
-        k, n, mu, *rest = (column[i] for column in columns)
-        yield [name, f"{k:.0f}", f"{n:.0f}", f"{mu:.6g}", *map(_g, rest), marks[code]]
-
-
-def _log_norm(counts):
-    from matplotlib.colors import LogNorm
-
-    return LogNorm(vmin=1, vmax=max(float(counts.max()) if counts.count() else 1.0, 2.0))
-
-
-def make_figures(table: LociTable, result, prior_curve):
-    """The three figures: {file name: matplotlib Figure}.
-
-    loci.csv's ``expected`` is n × the posterior median of q (deterministic model) or
-    n × E[x] under Wright's density at the posterior median of s_het (drift model).
-
-    ``prior_curve`` is ``(log10 s_het, density per log10 unit)`` of the prior used.
-    """
-    from matplotlib.figure import Figure  # no pyplot: a user's backend is left alone
-
-    loci = result.loci
-    ok = np.isfinite(loci["median"])
-    medians = np.log10(loci["median"][ok])
-    s = result.settings
-    bins = np.linspace(math.log10(s.s_low), math.log10(s.s_high), 41)
-    figures = {}
-
-    fig = Figure(figsize=(6, 4), layout="tight")
-    ax = fig.add_subplot()
-    ax.hist(medians, bins=bins, color="#4c72b0", edgecolor="white")
-    ax.set_xlabel("log10 posterior median of s_het")
-    ax.set_ylabel("loci")
-    ax.set_title(f"Per-locus estimates ({ok.sum()} loci)")
-    figures["medians.png"] = fig
-
-    fig = Figure(figsize=(6, 5), layout="tight")
-    ax = fig.add_subplot()
-    x = np.log10(loci["expected"][ok] + 1.0)
-    y = np.log10(table.observed[ok] + 1.0)
-    top = max(float(np.max(x, initial=1.0)), float(np.max(y, initial=1.0))) * 1.02
-    edges = np.linspace(0.0, top, 61)
-    counts, _, _ = np.histogram2d(x, y, bins=[edges, edges])
-    shown = np.ma.masked_equal(counts.T, 0)
-    image = ax.pcolormesh(edges, edges, shown, cmap="viridis", norm=_log_norm(shown))
-    fig.colorbar(image, ax=ax, label="loci")
-    ax.plot([0, top], [0, top], color="0.3", lw=1, label="observed = expected")
-    what = "n × E[x] (drift)" if s.model == "drift" else "n × posterior median of q"
-    ax.set_xlabel(f"log10(expected + 1), expected = {what}")
-    ax.set_ylabel("log10(observed + 1)")
-    ax.set_title("Observed vs expected allele copies")
-    ax.legend(loc="upper left", fontsize=8)
-    figures["observed_vs_expected.png"] = fig
-
-    fig = Figure(figsize=(6, 4), layout="tight")
-    ax = fig.add_subplot()
-    ax.hist(medians, bins=bins, density=True, color="#bbbbbb", edgecolor="white",
-            label="per-locus posterior medians")
-    ax.plot(prior_curve[0], prior_curve[1], color="#c44e52", lw=2, label=result.prior.describe())
-    ax.set_xlabel("log10 s_het")
-    ax.set_ylabel("density per log10 unit")
-    ax.set_title("Shared prior over the per-locus medians")
-    ax.legend(loc="upper left", fontsize=8)
-    figures["prior.png"] = fig
-    return figures
-
-
-def write_report(out, table: LociTable, result, summary: dict, flags: dict, prior_curve, *,
-                 force=False) -> Path:
-    """Write loci.csv, summary.json and the PNG figures into ``out`` atomically."""
-    from infer.reporting.folder import atomic_folder
-    from infer.reporting.jsonout import dumps
-
-    out = Path(out)
-    with atomic_folder(out, force=force) as folder:
-        with open(folder / "loci.csv", "w", newline="", encoding="utf-8") as handle:
-            csv.writer(handle, lineterminator="\n").writerows(loci_rows(table, result.loci, flags))
-        for name, figure in make_figures(table, result, prior_curve).items():
-            figure.savefig(folder / name, dpi=110)
-        (folder / "summary.json").write_text(dumps(summary), encoding="utf-8")
-    return out
-
-
-class ChunkStore:
-    """Disk-backed ``index -> array`` mapping in a private temporary folder.
-
-    Keeps the drift model's per-chunk log-likelihoods between the two empirical-Bayes
-    passes without holding them in memory. Use as a context manager; the folder goes
-    away on exit.
-    """
-
-    def __init__(self):
-        import tempfile
-
-        self._folder = tempfile.TemporaryDirectory(prefix="qhat-batch-")
-
-    def __setitem__(self, index, array):
-        np.save(Path(self._folder.name) / f"{int(index)}.npy", np.asarray(array))
-
-    def __getitem__(self, index):
-        return np.load(Path(self._folder.name) / f"{int(index)}.npy")
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self._folder.cleanup()

@@ -1,7 +1,8 @@
-"""Study files: TOML (UTF-8) -> a validated :class:`Study` (DESIGN.md section 3).
+"""Study files: TOML (UTF-8) -> a validated :class:`Study` (docs/files.md, 'Study files').
 
 All validation of a study happens here and in the parsers it calls
-(:func:`infer.model.priors.parsing.parse_parameter`, :func:`infer.model.observations.kinds.parse_observation`).
+(:func:`infer.model.priors.parsing.parse_parameter`,
+:func:`infer.model.observations.kinds.parse_observation`).
 Every problem raises :class:`~infer.errors.InputError` carrying the file name as
 given, the field (``observations[2].affected``, counted from 1) and the bad value,
 so the command line prints one line and exits with status 2.
@@ -39,9 +40,13 @@ from typing import Any
 
 import numpy as np
 
+from infer.core.choices import INHERITANCES, MODELS
 from infer.errors import InputError
-from infer.model.balance_state import State
-from infer.model.observations.kinds import Estimate, Observation, parse_observation
+from infer.files.reading import invalid_toml, read_text
+from infer.model.balance_state import BalanceState
+from infer.model.observations.base import Observation
+from infer.model.observations.kinds import parse_observation
+from infer.model.observations.published import Estimate
 from infer.model.priors.parsing import (
     PARAMETERS,
     Fixed,
@@ -78,8 +83,6 @@ TOP_LEVEL_KEYS = (
     "title", "inheritance", "model", "interval", "parameters", "observations", "sampler",
 )
 SAMPLER_KEYS = ("seed", "walkers", "max_steps", "ensembles")
-INHERITANCES = ("autosomal", "x-linked")
-MODELS = ("deterministic", "drift")
 #: prior draws used to check that the priors put mass where each observation can arise
 SUPPORT_CHECK_DRAWS = 400
 _DRIFT_SCOPE = "the drift model covers autosomal loci with F = 0"
@@ -174,36 +177,28 @@ def load_study(path, *, require_free: bool = True) -> Study:
         Unreadable file, not UTF-8, invalid TOML, or any error of :func:`parse_study`.
     """
     source = str(path)
-    try:
-        raw = Path(path).read_bytes()
-    except OSError as error:
-        reason = error.strerror or type(error).__name__
-        raise InputError(f"cannot read the file: {reason}", source=source) from None
-    try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError as error:
-        byte = raw[error.start]
-        raise InputError(
-            f"the file is not UTF-8 text (byte 0x{byte:02x} at offset {error.start}); "
-            "save it as UTF-8",
-            source=source,
-        ) from None
+    text = read_text(path)
     try:
         document = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
-        raise InputError(f"invalid TOML: {error}", source=source) from None
+        raise invalid_toml(error, source=source) from None
     return parse_study(document, source=source, require_free=require_free)
 
 
-def parse_study(document: dict, *, source: str, require_free: bool = True) -> Study:
-    """Validate a parsed TOML document and build the :class:`Study`.
+def parse_study(document: dict | str, *, source: str = "<study>",
+                require_free: bool = True) -> Study:
+    """Validate a study given as a dict or as TOML text and build the :class:`Study`.
 
     Parameters
     ----------
-    document : dict
-        The output of ``tomllib``.
-    source : str
-        The file name for error messages (also ``Study.path``).
+    document : dict or str
+        The study laid out as the TOML file is (the output of ``tomllib``, or a dict
+        written in Python), or the TOML text itself. In a dict, numpy scalars
+        (``numpy.int64``, ``numpy.float32``, ``numpy.bool_``, ...) count as the Python
+        numbers they hold and tuples as lists.
+    source : str, optional
+        The name error messages give (also ``Study.path`` and the default title);
+        default ``"<study>"``.
     require_free : bool, optional
         Refuse a study without free parameters (default True).
 
@@ -211,11 +206,41 @@ def parse_study(document: dict, *, source: str, require_free: bool = True) -> St
     ------
     InputError
         With ``source`` set and the field of the first problem found.
+
+    Examples
+    --------
+    >>> study = parse_study({"parameters": {"mu": {"prior": "log-uniform", "low": 1e-8,
+    ...                                            "high": 1e-3}, "s": 0.5, "h": 1.0},
+    ...                      "observations": [{"kind": "affected", "affected": 19,
+    ...                                        "total": 182_400, "mode": "dominant"}]},
+    ...                     source="registry")
+    >>> study.free
+    ['mu']
     """
+    if isinstance(document, str):
+        try:
+            document = tomllib.loads(document)
+        except tomllib.TOMLDecodeError as error:
+            raise InputError(f"invalid TOML: {error}", source=source) from None
     try:
-        return _parse(document, source, require_free)
+        return _parse(_plain_values(document), source, require_free)
     except InputError as error:
         raise error.located(source=source) from None
+
+
+def _plain_values(value: Any) -> Any:
+    """``value`` with numpy scalars as Python scalars and tuples as lists (copied, recursively).
+
+    So a study written in Python validates exactly as the same study read from TOML;
+    anything else (arrays, sets, ...) is left for the validators to refuse by name.
+    """
+    if isinstance(value, dict):
+        return {key: _plain_values(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain_values(item) for item in value]
+    if isinstance(value, (np.bool_, np.integer, np.floating, np.str_)):
+        return value.item()
+    return value
 
 
 def _parse(document: Any, source: str, require_free: bool) -> Study:
@@ -395,9 +420,9 @@ def _check_prior_support(study: Study) -> None:
     }
     with np.errstate(all="ignore"):
         if study.model == "drift":
-            state = State.without_frequency(params, study.inheritance)
+            state = BalanceState.without_frequency(params, study.inheritance)
         else:
-            state = State.deterministic(params, study.inheritance)
+            state = BalanceState.deterministic(params, study.inheritance)
         total = np.zeros(n)
         checked = False
         for index, observation in enumerate(study.observations, start=1):

@@ -14,6 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from infer.core.stats import central_quantiles
+
 __all__ = ["GridPosterior", "grid_posterior", "compare_with_draws"]
 
 #: prior tail probability left outside the coarse grid
@@ -144,12 +146,10 @@ def compare_with_draws(grid: GridPosterior, draws: dict[str, np.ndarray], interv
     "upper": rel}}}``; a relative difference is taken against the exact value, or against
     the exact interval width where the exact value is zero.
     """
-    tail = (1.0 - interval) / 2.0
     report, agrees = {}, True
     for name in grid.names:
-        flat = np.asarray(draws[name]).ravel()
         sampled = dict(zip(("median", "lower", "upper"),
-                           np.quantile(flat, [0.5, tail, 1.0 - tail]), strict=True))
+                           central_quantiles(draws[name], interval), strict=True))
         exact = grid.quantiles[name]
         width = exact["upper"] - exact["lower"]
         rel = {}

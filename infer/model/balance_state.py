@@ -12,9 +12,10 @@ from typing import Any
 
 import numpy as np
 
-__all__ = ["State", "broadcast_params", "INHERITANCES"]
+from infer.core.choices import INHERITANCES
 
-INHERITANCES = ("autosomal", "x-linked")
+__all__ = ["BalanceState", "broadcast_params", "INHERITANCES"]
+
 _NAMES = ("mu", "s", "h", "F", "nu", "Ne", "alpha")
 
 
@@ -46,8 +47,10 @@ def broadcast_params(params: dict) -> dict[str, np.ndarray]:
 
 
 @dataclass
-class State:
-    """Parameters and equilibrium frequencies for ``n`` rows.
+class BalanceState:
+    """Parameters and equilibrium frequencies for ``n`` rows (the model's state).
+
+    Named for the balance it carries, and so as not to be confused with ``emcee.State``.
 
     Attributes
     ----------
@@ -80,7 +83,7 @@ class State:
         return int(np.shape(self.exists)[0])
 
     @classmethod
-    def deterministic(cls, params: dict, inheritance: str) -> State:
+    def deterministic(cls, params: dict, inheritance: str) -> BalanceState:
         """The exact deterministic equilibrium of each row (infinite population).
 
         Parameters
@@ -115,7 +118,7 @@ class State:
         raise ValueError(f"inheritance must be one of {', '.join(INHERITANCES)}: {inheritance!r}")
 
     @classmethod
-    def at_frequency(cls, params: dict, q) -> State:
+    def at_frequency(cls, params: dict, q) -> BalanceState:
         """An autosomal state at given frequencies ``q`` (e.g. draws from Wright's density).
 
         Used for predictive draws under the drift model: every row exists.
@@ -124,8 +127,20 @@ class State:
         q = np.broadcast_to(np.asarray(q, dtype=float), p["mu"].shape).copy()
         return cls(p, "autosomal", q, None, None, np.ones(q.shape, dtype=bool))
 
+    def tile(self, times: int) -> BalanceState:
+        """The rows repeated ``times`` over, in order (``numpy.tile``), without ``balance``.
+
+        Used to draw many predictive replicates per row in one vectorised call.
+        """
+        def repeat(values):
+            return None if values is None else np.tile(values, times)
+
+        return BalanceState({k: np.tile(v, times) for k, v in self.params.items()},
+                            self.inheritance, repeat(self.q), repeat(self.q_male),
+                            repeat(self.q_female), repeat(self.exists))
+
     @classmethod
-    def without_frequency(cls, params: dict, inheritance: str) -> State:
+    def without_frequency(cls, params: dict, inheritance: str) -> BalanceState:
         """Parameters only, for observation kinds that do not depend on the frequency."""
         p = broadcast_params(params)
         nan = np.full(p["mu"].shape, np.nan)

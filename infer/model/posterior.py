@@ -7,7 +7,7 @@ to the parameter's support and returns log|dx/dz|, so the density in z is
 
 Under ``model = "deterministic"`` every observation sees the exact balance frequency;
 under ``model = "drift"`` each frequency-dependent observation's probability is
-integrated over Wright's stationary density (DESIGN.md section 2).
+integrated over Wright's stationary density (docs/model.md, 'Observation models').
 """
 
 from __future__ import annotations
@@ -17,7 +17,7 @@ from collections.abc import Mapping
 import numpy as np
 
 from infer.core.drift import stationary as drift
-from infer.model.balance_state import State
+from infer.model.balance_state import BalanceState
 from infer.model.priors.parsing import PARAMETERS, Fixed
 
 __all__ = ["Model"]
@@ -96,9 +96,9 @@ class Model:
             total = total + prior.log_density(params[name])
         return total
 
-    def state(self, params: Mapping[str, np.ndarray]) -> State:
+    def state(self, params: Mapping[str, np.ndarray]) -> BalanceState:
         """The deterministic balance state of each row."""
-        return State.deterministic(dict(params), self.inheritance)
+        return BalanceState.deterministic(dict(params), self.inheritance)
 
     def log_likelihoods(self, params: Mapping[str, np.ndarray]) -> np.ndarray:
         """Per-observation log-likelihoods, shape (n, n_observations).

@@ -60,10 +60,8 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
                  else "") + ".",
               "- Equilibrium is assumed: the allele frequency has settled at its balance "
               "value.", ""]
-    if any(o.kind == "fertility" for o in study.observations):
-        lines += ["- The fertility data are read as the whole of selection: the model "
-                  "assumes selection acts through fertility alone (no extra mortality "
-                  "before reproductive age).", ""]
+    for assumption in dict.fromkeys(o.assumption for o in study.observations if o.assumption):
+        lines += [f"- {assumption}", ""]
     lines += ["Observations:", ""]
     lines += [f"{i + 1}. {o.describe()}" for i, o in enumerate(study.observations)]
     lines += ["", "Parameters (priors; *default* marks a value the study did not set):", ""]

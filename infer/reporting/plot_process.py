@@ -106,9 +106,9 @@ def _warm_up() -> None:
     """Import the figure and Agg modules and load the font by drawing a tiny figure."""
     import io
 
-    from matplotlib.figure import Figure
+    from infer.reporting.plots.save import new_figure
 
-    figure = Figure(figsize=(1, 1), dpi=20)
+    figure = new_figure(figsize=(1, 1), dpi=20)
     figure.add_subplot().set_title("warm-up 0.1")
     figure.savefig(io.BytesIO(), format="png")
 

@@ -1,4 +1,4 @@
-"""Write the report folder of an estimate (DESIGN.md section 5)."""
+"""Write the report folder of an estimate (docs/reports.md, 'The estimate report folder')."""
 
 from __future__ import annotations
 

@@ -1,8 +1,8 @@
-"""Tests of ``qhat batch``: infer/batch.py (maths), infer/batch_io.py, the command.
+"""Tests of ``qhat batch``: infer/batch/ (maths), infer/files/loci.py, the command.
 
 References outside the code under test:
 
-* the life-cycle recursion of DESIGN.md section 2, iterated to its fixed point, and
+* the life-cycle recursion of docs/model.md, 'Life cycle', iterated to its fixed point, and
   ``infer.core.balance.q_hat`` (exact balance, separate implementation);
 * scipy.integrate.quad of the same one-dimensional posterior (mu integrated by an
   inner quad over its log-normal), and an emcee run of the joint (ln s_het, z) posterior
@@ -21,6 +21,7 @@ import csv
 import importlib.util
 import json
 import math
+import os
 from pathlib import Path
 
 import numpy as np
@@ -84,7 +85,7 @@ def _run_one(k, n, mu, sigma, settings=None, prior="log-uniform"):
 # ------------------------------------------------------------------ balance convention
 
 def test_balance_frequency_is_the_fixed_point_of_the_life_cycle():
-    """Derived: q_hat = mu/(s_het(1+mu)) is the fixed point of DESIGN.md section 2 with
+    """Derived: q_hat = mu/(s_het(1+mu)) is the fixed point of docs/model.md, 'Life cycle' with
     h = 1/2, s = 2 s_het, F = nu = 0 (iterate q' = q_sel + (1 - q_sel)·mu); it also equals
     infer.core.balance.q_hat (independent implementation)."""
     from infer.core.balance import q_hat
@@ -98,9 +99,12 @@ def test_balance_frequency_is_the_fixed_point_of_the_life_cycle():
         w = p * p + 2 * p * q * (1 - h * s) + q * q * (1 - s)
         q_sel = (p * q * (1 - h * s) + q * q * (1 - s)) / w
         q = q_sel + (1 - q_sel) * mu
-    np.testing.assert_allclose(batch.balance_frequency(mu, s_het), q, rtol=1e-9)
-    np.testing.assert_allclose(batch.balance_frequency(mu, s_het), q_hat(mu, s, h), rtol=1e-12)
-    assert np.isnan(batch.balance_frequency(0.2, 0.1))  # mu' > s_het: no interior root
+    np.testing.assert_allclose(batch.balance_frequency(mu, s_het), q, rtol=1e-9,
+                               err_msg="not the fixed point of the life cycle")
+    np.testing.assert_allclose(batch.balance_frequency(mu, s_het), q_hat(mu, s, h), rtol=1e-12,
+                               err_msg="differs from infer.core.balance.q_hat at h = 1/2")
+    assert np.isnan(batch.balance_frequency(0.2, 0.1)), (  # mu' > s_het: no interior root
+        "mu/(1+mu) > s_het has no interior balance and must give NaN")
 
 
 # ------------------------------------------------------------ quadrature vs references
@@ -119,12 +123,15 @@ def test_posterior_matches_scipy_quad(k, n, mu, sigma):
     out = _run_one(k, n, mu, sigma)
     likelihood, total, (u0, u1, pts) = _posterior_quad(k, n, mu, sigma)
     below = integrate.quad(likelihood, u0, math.log(out["median"]), limit=400, epsrel=1e-10)[0]
-    assert abs(below / total - 0.5) < 5e-4
+    assert abs(below / total - 0.5) < 5e-4, (
+        f"quad puts {below / total:.5f} of the mass below the grid median, not 0.5")
     mean = integrate.quad(lambda u: math.exp(u) * likelihood(u), u0, u1, points=pts, limit=400,
                           epsrel=1e-10)[0] / total
-    assert out["mean"] == pytest.approx(mean, rel=1e-3)
+    assert out["mean"] == pytest.approx(mean, rel=1e-3), (
+        f"grid mean {out['mean']:.6g}, quad mean {mean:.6g}")
     lower = integrate.quad(likelihood, u0, math.log(out["lower"]), limit=400, epsrel=1e-10)[0]
-    assert abs(lower / total - 0.025) < 5e-4
+    assert abs(lower / total - 0.025) < 5e-4, (
+        f"quad puts {lower / total:.5f} of the mass below the grid 2.5 % point")
 
 
 @pytest.mark.slow
@@ -155,10 +162,12 @@ def test_median_matches_emcee(k, n, mu, sigma):
     sampler._random = np.random.RandomState(np.random.MT19937(int(rng.integers(2**32))))
     sampler.run_mcmc(start, 5000)
     chain = sampler.get_chain(discard=1000, flat=True)
-    assert np.max(sampler.get_autocorr_time(discard=1000, tol=0)) < 80   # > 50 τ kept
+    tau = np.max(sampler.get_autocorr_time(discard=1000, tol=0))
+    assert tau < 80, f"emcee autocorrelation time {tau:.1f}: fewer than 50 τ kept"
     emcee_median = math.exp(np.median(chain[:, 0]))
     out = _run_one(k, n, mu, sigma)
-    assert out["median"] == pytest.approx(emcee_median, rel=0.02)
+    assert out["median"] == pytest.approx(emcee_median, rel=0.02), (
+        f"grid median {out['median']:.5g}, emcee median {emcee_median:.5g}")
 
 
 def test_poisson_approximation_agrees_for_rare_alleles():
@@ -170,7 +179,9 @@ def test_poisson_approximation_agrees_for_rare_alleles():
         density = stats.poisson.pmf(k, n * mu / np.exp(u))
         cdf = integrate.cumulative_trapezoid(density, u, initial=0)
         median = math.exp(np.interp(0.5, cdf / cdf[-1], u))
-        assert _run_one(k, n, mu, 0.0)["median"] == pytest.approx(median, rel=5e-3)
+        got = _run_one(k, n, mu, 0.0)["median"]
+        assert got == pytest.approx(median, rel=5e-3), (
+            f"k={k}, n={n}: binomial median {got:.5g}, Poisson reference {median:.5g}")
 
 
 def test_results_do_not_depend_on_chunking():
@@ -182,9 +193,10 @@ def test_results_do_not_depend_on_chunking():
     for prior in ("log-uniform", "empirical"):
         a = batch.analyse(*args, batch.BatchSettings(), prior=prior, chunk_size=37)
         b = batch.analyse(*args, batch.BatchSettings(), prior=prior, chunk_size=1000)
-        assert a.prior == b.prior
+        assert a.prior == b.prior, f"{prior}: chunk sizes 37 and 1000 fit {a.prior} vs {b.prior}"
         for name in a.loci:
-            np.testing.assert_array_equal(a.loci[name], b.loci[name])
+            np.testing.assert_array_equal(a.loci[name], b.loci[name],
+                                          err_msg=f"{prior}: {name} depends on the chunk size")
 
 
 def test_a_locus_does_not_depend_on_its_neighbours_mu_uncertainty():
@@ -195,30 +207,36 @@ def test_a_locus_does_not_depend_on_its_neighbours_mu_uncertainty():
     alone = batch.analyse([1000], [1000], [1e-6], [0.0], batch.BatchSettings())
     beside = batch.analyse([1000, 3], [1000, 1000], [1e-6, 1e-6], [0.0, 0.3],
                            batch.BatchSettings())
-    assert beside.settings.half_width > alone.settings.half_width == 0
+    assert beside.settings.half_width > alone.settings.half_width == 0, (
+        "the uncertain neighbour should widen the shared kernel")
     for name, values in alone.loci.items():
         if name != "expected":
-            np.testing.assert_array_equal(beside.loci[name][:1], values)
-    assert np.isfinite(alone.loci["median"][0]) and not alone.loci["flags"][0] & 16
+            np.testing.assert_array_equal(beside.loci[name][:1], values,
+                                          err_msg=f"{name} changes beside another locus")
+    assert np.isfinite(alone.loci["median"][0]) and not alone.loci["flags"][0] & 16, (
+        "k = n = 1000 lost its likelihood (NaN or flag no-likelihood)")
 
 
 def test_mu_sigma_from_interval():
     """Common practice: a log-normal's central 95 % interval is median·exp(±1.96 sigma)."""
     sigma = batch.mu_sigma_from_interval([1e-6, np.nan], [4e-6, np.nan], 0.95)
-    np.testing.assert_allclose(sigma, [math.log(4) / (2 * Z975), 0.0])
+    np.testing.assert_allclose(sigma, [math.log(4) / (2 * Z975), 0.0],
+                               err_msg="sigma of ln mu is not ln(U/L) / (2 z)")
 
 
 def test_flags():
     settings = batch.BatchSettings()
     zero = _run_one(0, 120_000, 2e-6, 0.0, settings)
-    assert zero["flags"] & 1
-    assert zero["flags"] & 4   # log-uniform prior: the upper end reaches s_high
+    assert zero["flags"] & 1, f"k = 0 lacks flag zero-observed: {zero['flags']}"
+    assert zero["flags"] & 4, (  # log-uniform prior: the upper end reaches s_high
+        f"k = 0 lacks flag at-prior-bound: {zero['flags']}")
     high = _run_one(30_000, 100_000, 1e-6, 0.0, settings)   # q = 0.3 needs s_het ~ 3e-6
-    assert high["flags"] & 2 and high["flags"] & 4
+    assert high["flags"] & 2 and high["flags"] & 4, (
+        f"q = 0.3 lacks frequency-too-high or at-prior-bound: {high['flags']}")
     sharp = _run_one(20_000, 1_000_000, 1e-5, 0.0, settings)  # sd of ln s ~ 0.007 < 2Δ
-    assert sharp["flags"] & 8
+    assert sharp["flags"] & 8, f"a posterior narrower than 2 grid steps lacks flag 8: {sharp}"
     plain = _run_one(20, 120_000, 3e-6, 0.3, settings)
-    assert plain["flags"] == 0
+    assert plain["flags"] == 0, f"an ordinary locus is flagged {plain['flags']}"
 
 
 # ------------------------------------------------------------ empirical Bayes recovery
@@ -242,9 +260,12 @@ def test_fit_matches_direct_optimisation():
     direct = optimize.minimize(negative, [math.log(0.01), 0.3], method="Nelder-Mead",
                                options={"xatol": 1e-7, "fatol": 1e-9})
     fitted = batch.fit_log_normal_prior(batch.log_marginal_surface(like, scale, settings), settings)
-    assert math.log(fitted.prior.median) == pytest.approx(direct.x[0], abs=3e-3)
-    assert math.log(fitted.prior.sigma) == pytest.approx(direct.x[1], abs=3e-3)
-    assert fitted.log_marginal == pytest.approx(-direct.fun, abs=1e-2)
+    assert math.log(fitted.prior.median) == pytest.approx(direct.x[0], abs=3e-3), (
+        f"ln median {math.log(fitted.prior.median):.5f} vs Nelder-Mead {direct.x[0]:.5f}")
+    assert math.log(fitted.prior.sigma) == pytest.approx(direct.x[1], abs=3e-3), (
+        f"ln sigma {math.log(fitted.prior.sigma):.5f} vs Nelder-Mead {direct.x[1]:.5f}")
+    assert fitted.log_marginal == pytest.approx(-direct.fun, abs=1e-2), (
+        f"log marginal {fitted.log_marginal:.4f} vs direct {-direct.fun:.4f}")
 
 
 @pytest.mark.slow
@@ -258,15 +279,17 @@ def test_recovery_and_coverage_on_simulated_loci():
     result = batch.analyse(data["observed"], data["sampled"], data["mu"], sigma,
                            batch.BatchSettings(), prior="empirical")
     fit = result.fitted
-    assert abs(math.log(fit.prior.median / g["s_het_median"])) < max(4 * fit.se_log_median, 0.08)
-    assert fit.prior.sigma == pytest.approx(g["s_het_sigma"], rel=0.06)
+    assert abs(math.log(fit.prior.median / g["s_het_median"])) < max(4 * fit.se_log_median, 0.08), (
+        f"fitted median {fit.prior.median:.4g}, generating {g['s_het_median']}")
+    assert fit.prior.sigma == pytest.approx(g["s_het_sigma"], rel=0.06), (
+        f"fitted sigma {fit.prior.sigma:.4g}, generating {g['s_het_sigma']}")
     truth = data["s_het"]
     cover = np.mean((result.loci["lower"] <= truth) & (truth <= result.loci["upper"]))
-    assert abs(cover - 0.95) < 0.03
+    assert abs(cover - 0.95) < 0.03, f"95 % intervals cover the truth for {cover:.3f}"
     narrow = batch.analyse(data["observed"], data["sampled"], data["mu"], sigma,
                            batch.BatchSettings(interval=0.8), prior=fit.prior)
     cover80 = np.mean((narrow.loci["lower"] <= truth) & (truth <= narrow.loci["upper"]))
-    assert abs(cover80 - 0.80) < 0.03
+    assert abs(cover80 - 0.80) < 0.03, f"80 % intervals cover the truth for {cover80:.3f}"
 
 
 # ------------------------------------------------------------------ command line
@@ -281,27 +304,46 @@ def _leftovers(folder):
 
 
 def test_cli_writes_the_report_folder(tmp_path, capsys):
+    """The folder holds exactly the documented files; each PNG is the size its figure was
+    built at (6 x 4 and 6 x 5 inches at 110 dpi); the report is marked a research
+    estimate. What the figures draw is tested in tests/reporting/test_batch_report.py."""
+    from matplotlib.image import imread
+
     source = _write_demo(tmp_path / "loci.csv")
     out = tmp_path / "report"
-    assert main(["batch", str(source), "--out", str(out), "--prior", "empirical"]) == 0
+    status = main(["batch", str(source), "--out", str(out), "--prior", "empirical"])
+    printed = capsys.readouterr()
+    assert status == 0, printed.err
     names = sorted(p.name for p in out.iterdir())
     assert names == ["loci.csv", "medians.png", "observed_vs_expected.png", "prior.png",
-                     "summary.json"]
-    for png in out.glob("*.png"):
-        assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" and png.stat().st_size > 5000
+                     "summary.json"], f"report folder holds {names}"
+    sizes = {"medians.png": (440, 660), "observed_vs_expected.png": (550, 660),
+             "prior.png": (440, 660)}
+    for name, shape in sizes.items():
+        png = out / name
+        assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n", f"{name} is not a PNG file"
+        image = imread(png)
+        assert image.shape[:2] == shape, f"{name} is {image.shape[:2]} pixels, want {shape}"
+        assert image[..., :3].std() > 0.05, f"{name} looks blank"
     summary = json.loads((out / "summary.json").read_text())
-    assert "not a clinical or genetic-counselling result" in summary["caution"]
-    assert summary["prior"]["fitted"]["sigma"] > 0
-    rows = list(csv.DictReader(open(out / "loci.csv")))
-    assert len(rows) == 200 and rows[0]["locus"] == "GENE0001"
+    assert "not a clinical or genetic-counselling result" in summary["caution"], (
+        f"caution {summary['caution']!r}")
+    assert summary["prior"]["fitted"]["sigma"] > 0, f"fitted prior {summary['prior']['fitted']}"
+    assert summary["files"] == ["loci.csv", "summary.json", "medians.png",
+                                "observed_vs_expected.png", "prior.png"], summary["files"]
+    with open(out / "loci.csv", newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    assert len(rows) == 200 and rows[0]["locus"] == "GENE0001", (
+        f"{len(rows)} rows, first locus {rows[0]['locus']!r}")
     first = {key: float(rows[0][f"s_het_{key}"]) for key in ("lower", "median", "upper")}
-    assert first["lower"] < first["median"] < first["upper"]
-    assert "research estimate" in capsys.readouterr().out.lower()
+    assert first["lower"] < first["median"] < first["upper"], f"first locus interval {first}"
+    assert "research estimate" in printed.out.lower(), f"summary line {printed.out!r}"
     # never overwrite without --force
-    assert main(["batch", str(source), "--out", str(out)]) == 2
-    assert "--force" in capsys.readouterr().err
-    assert main(["batch", str(source), "--out", str(out), "--force", "--quiet"]) == 0
-    assert _leftovers(tmp_path) == []
+    assert main(["batch", str(source), "--out", str(out)]) == 2, "an existing folder was replaced"
+    assert "--force" in capsys.readouterr().err, "the refusal does not mention --force"
+    assert main(["batch", str(source), "--out", str(out), "--force", "--quiet"]) == 0, (
+        capsys.readouterr().err)
+    assert _leftovers(tmp_path) == [], f"left behind: {_leftovers(tmp_path)}"
 
 
 def _comparable(folder):
@@ -317,10 +359,10 @@ def test_jobs_two_equals_jobs_one(tmp_path):
     source = _write_demo(tmp_path / "loci.csv", loci=600)
     one, two = tmp_path / "one", tmp_path / "two"
     assert main(["batch", str(source), "--out", str(one), "--prior", "empirical", "--quiet",
-                 "--chunk-size", "100"]) == 0
+                 "--chunk-size", "100"]) == 0, "the one-process run failed"
     assert main(["batch", str(source), "--out", str(two), "--prior", "empirical", "--quiet",
-                 "--chunk-size", "100", "--jobs", "2"]) == 0
-    assert _comparable(one) == _comparable(two)
+                 "--chunk-size", "100", "--jobs", "2"]) == 0, "the --jobs 2 run failed"
+    assert _comparable(one) == _comparable(two), "--jobs 2 gives other results than --jobs 1"
 
 
 @pytest.mark.slow
@@ -331,9 +373,10 @@ def test_drift_jobs_two_equals_jobs_one(tmp_path):
     common = ["--model", "drift", "--Ne", "20000", "--prior", "empirical", "--quiet",
               "--chunk-size", "10", "--grid-points", "120"]
     one, two = tmp_path / "one", tmp_path / "two"
-    assert main(["batch", str(source), "--out", str(one), *common]) == 0
-    assert main(["batch", str(source), "--out", str(two), *common, "--jobs", "2"]) == 0
-    assert _comparable(one) == _comparable(two)
+    assert main(["batch", str(source), "--out", str(one), *common]) == 0, "drift run failed"
+    assert main(["batch", str(source), "--out", str(two), *common, "--jobs", "2"]) == 0, (
+        "drift run with --jobs 2 failed")
+    assert _comparable(one) == _comparable(two), "drift: --jobs 2 differs from --jobs 1"
 
 
 @pytest.mark.slow
@@ -343,13 +386,13 @@ def test_dask_local_cluster_equals_local_run(tmp_path):
     source = _write_demo(tmp_path / "loci.csv", loci=600)
     local, remote = tmp_path / "local", tmp_path / "remote"
     assert main(["batch", str(source), "--out", str(local), "--prior", "empirical", "--quiet",
-                 "--chunk-size", "100"]) == 0
+                 "--chunk-size", "100"]) == 0, "the local run failed"
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, dashboard_address=None,
                                   processes=True) as cluster:
         assert main(["batch", str(source), "--out", str(remote), "--prior", "empirical",
                      "--quiet", "--chunk-size", "100", "--scheduler",
-                     cluster.scheduler_address]) == 0
-    assert _comparable(local) == _comparable(remote)
+                     cluster.scheduler_address]) == 0, "the dask run failed"
+    assert _comparable(local) == _comparable(remote), "dask results differ from the local run"
 
 
 HEADER = "locus,observed,sampled,mu,mu_lower,mu_upper\n"
@@ -374,11 +417,11 @@ def test_bad_csv_exits_2_with_one_line_and_writes_nothing(tmp_path, capsys, text
     source = tmp_path / "bad.csv"
     source.write_text(text)
     out = tmp_path / "out"
-    assert main(["batch", str(source), "--out", str(out)]) == 2
+    assert main(["batch", str(source), "--out", str(out)]) == 2, "a bad file must exit 2"
     err = capsys.readouterr().err
-    assert err.count("\n") == 1 and err.startswith("qhat: error: ")
-    assert str(source) in err and where in err
-    assert not out.exists() and _leftovers(tmp_path) == []
+    assert err.count("\n") == 1 and err.startswith("qhat: error: "), f"stderr {err!r}"
+    assert str(source) in err and where in err, f"{err!r} should name the file and {where!r}"
+    assert not out.exists() and _leftovers(tmp_path) == [], "a bad file left files behind"
 
 
 def test_skip_bad_rows_lists_each_one(tmp_path, capsys):
@@ -386,15 +429,21 @@ def test_skip_bad_rows_lists_each_one(tmp_path, capsys):
     source.write_text(HEADER + GOOD + "GENE0002,abc,1000,1e-6,,\nGENE0003,2,1000,2e-6,,\n"
                       "GENE0004,5,4,1e-6,,\n")
     out = tmp_path / "out"
-    assert main(["batch", str(source), "--out", str(out)]) == 2
-    assert "1 more bad row" in capsys.readouterr().err
-    assert main(["batch", str(source), "--out", str(out), "--skip-bad-rows", "--quiet"]) == 0
+    assert main(["batch", str(source), "--out", str(out)]) == 2, "bad rows must exit 2"
     err = capsys.readouterr().err
-    assert "line 3, column observed" in err and "line 5, column observed" in err
+    assert "1 more bad row" in err, f"the count of further bad rows is missing: {err!r}"
+    assert main(["batch", str(source), "--out", str(out), "--skip-bad-rows", "--quiet"]) == 0, (
+        "--skip-bad-rows should run")
+    err = capsys.readouterr().err
+    assert "line 3, column observed" in err and "line 5, column observed" in err, (
+        f"each skipped row should be listed: {err!r}")
     skipped = json.loads((out / "summary.json").read_text())["input"]["skipped_rows"]
-    assert [(s["line"], s["column"]) for s in skipped] == [(3, "observed"), (5, "observed")]
-    rows = list(csv.DictReader(open(out / "loci.csv")))
-    assert [r["locus"] for r in rows] == ["GENE0001", "GENE0003"]
+    assert [(s["line"], s["column"]) for s in skipped] == [(3, "observed"), (5, "observed")], (
+        f"summary.json skipped_rows {skipped}")
+    with open(out / "loci.csv", newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    assert [r["locus"] for r in rows] == ["GENE0001", "GENE0003"], (
+        f"loci.csv keeps {[r['locus'] for r in rows]}")
 
 
 @pytest.mark.parametrize("options, option", [
@@ -407,25 +456,29 @@ def test_skip_bad_rows_lists_each_one(tmp_path, capsys):
 ])
 def test_bad_options_exit_2(tmp_path, capsys, options, option):
     source = _write_demo(tmp_path / "loci.csv", loci=5)
-    assert main(["batch", str(source), "--out", str(tmp_path / "o"), *options]) == 2
+    assert main(["batch", str(source), "--out", str(tmp_path / "o"), *options]) == 2, (
+        f"{options} must exit 2")
     err = capsys.readouterr().err
-    assert err.startswith("qhat: error: " + option) and err.count("\n") == 1
+    assert err.startswith("qhat: error: " + option) and err.count("\n") == 1, (
+        f"want one line naming {option}, got {err!r}")
 
 
 def test_locus_names_never_become_paths(tmp_path):
     source = tmp_path / "odd.csv"
     source.write_text(HEADER + "../../escape,3,1000,1e-6,,\n/etc/passwd,1,1000,1e-6,,\n")
     out = tmp_path / "out"
-    assert main(["batch", str(source), "--out", str(out), "--quiet"]) == 0
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["odd.csv", "out"]
-    assert len(list(out.iterdir())) == 5
+    assert main(["batch", str(source), "--out", str(out), "--quiet"]) == 0, "odd names must run"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["odd.csv", "out"], (
+        f"a locus name became a path: {sorted(p.name for p in tmp_path.iterdir())}")
+    assert len(list(out.iterdir())) == 5, f"report holds {sorted(os.listdir(out))}"
 
 
 def test_demo_file_is_the_documented_simulation(tmp_path):
     """data_demo/batch_loci.csv is regenerated byte for byte by the generator script."""
     again = tmp_path / "again.csv"
     demo.write_csv(again, demo.simulate(demo.GENERATING["loci"], demo.GENERATING["seed"]))
-    assert again.read_bytes() == (ROOT / "data_demo" / "batch_loci.csv").read_bytes()
+    assert again.read_bytes() == (ROOT / "data_demo" / "batch_loci.csv").read_bytes(), (
+        "data_demo/batch_loci.csv is not what benchmarks/make_batch_demo.py writes")
 
 
 # ------------------------------------------------------------------ drift model
@@ -439,7 +492,8 @@ def test_drift_model_approaches_deterministic_for_large_Ne():
     deterministic = batch.BatchSettings(grid_points=200, s_low=1e-3, s_high=0.5)
     drift = _run_one(20, 120_000, 5e-6, 0.0, settings)
     plain = _run_one(20, 120_000, 5e-6, 0.0, deterministic)
-    assert drift["median"] == pytest.approx(plain["median"], rel=0.02)
+    assert drift["median"] == pytest.approx(plain["median"], rel=0.02), (
+        f"drift median {drift['median']:.5g}, deterministic {plain['median']:.5g}")
 
 
 def test_drift_likelihood_matches_direct_integral():
@@ -458,7 +512,8 @@ def test_drift_likelihood_matches_direct_integral():
     z = integrate.quad(phi, 0, 1, weight="alg", wvar=(a - 1, 0), limit=200, points=None)[0]
     num = integrate.quad(lambda x: stats.binom.pmf(k, n, x) * phi(x), 0, 1, weight="alg",
                          wvar=(a - 1, 0), limit=400, epsabs=0, epsrel=1e-10)[0]
-    assert math.log(like[0, 10]) + scale[0] == pytest.approx(math.log(num / z), abs=1e-5)
+    assert math.log(like[0, 10]) + scale[0] == pytest.approx(math.log(num / z), abs=1e-5), (
+        f"log L {math.log(like[0, 10]) + scale[0]:.7f} vs quad {math.log(num / z):.7f}")
 
 
 def test_drift_interpolation_matches_direct_evaluation():
@@ -485,12 +540,14 @@ def test_drift_interpolation_matches_direct_evaluation():
         direct = log_binomial_probability(k[i], n[i], 2e4, nodes[None, :], two_s[:, None], 0.5,
                                           1e-8)
         direct = logsumexp(direct + log_w, axis=1) if sigma[i] else direct[:, 0]
-        np.testing.assert_allclose(np.log(like[i]) + scale[i], direct, atol=1.5e-2)
+        np.testing.assert_allclose(np.log(like[i]) + scale[i], direct, atol=1.5e-2,
+                                   err_msg=f"locus {i}: splined drift log L off direct")
         u = settings.log_s
         cdf = integrate.cumulative_trapezoid(np.exp(direct - direct.max()), u, initial=0)
         median = math.exp(np.interp(0.5, cdf / cdf[-1], u))
         mine = _run_one(k[i], n[i], mu[i], sigma[i], settings)["median"]
-        assert mine == pytest.approx(median, rel=3e-3)
+        assert mine == pytest.approx(median, rel=3e-3), (
+            f"locus {i}: median {mine:.5g}, direct-evaluation median {median:.5g}")
 
 
 def test_scheduler_without_dask_says_install_the_extra(tmp_path, capsys, monkeypatch):
@@ -500,10 +557,11 @@ def test_scheduler_without_dask_says_install_the_extra(tmp_path, capsys, monkeyp
     monkeypatch.setitem(sys.modules, "dask.distributed", None)   # import now fails
     source = _write_demo(tmp_path / "loci.csv", loci=5)
     out = tmp_path / "out"
-    assert main(["batch", str(source), "--out", str(out), "--scheduler", "tcp://127.0.0.1:1"]) == 2
+    status = main(["batch", str(source), "--out", str(out), "--scheduler", "tcp://127.0.0.1:1"])
     err = capsys.readouterr().err
-    assert "install qhat[dist]" in err and err.count("\n") == 1
-    assert not out.exists()
+    assert status == 2, f"--scheduler without dask exited {status}: {err!r}"
+    assert "install qhat[dist]" in err and err.count("\n") == 1, f"stderr {err!r}"
+    assert not out.exists(), "a failed --scheduler run left a report folder"
 
 
 def test_sigterm_during_the_run_leaves_nothing(tmp_path):
@@ -530,6 +588,8 @@ def test_sigterm_during_the_run_leaves_nothing(tmp_path):
                            "--out", str(tmp_path / "out")], capture_output=True, timeout=300,
                           env={**os.environ, "TMPDIR": str(temporary)})
     assert done.returncode == 130, done.stderr
-    assert done.stderr.decode() == "qhat: interrupted; nothing was written\n"
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["loci.csv", "tmp"]
-    assert list(temporary.iterdir()) == []
+    assert done.stderr.decode() == "qhat: interrupted; nothing was written\n", done.stderr
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["loci.csv", "tmp"], (
+        f"SIGTERM left {sorted(p.name for p in tmp_path.iterdir())}")
+    assert list(temporary.iterdir()) == [], (
+        f"the chunk store was left in TMPDIR: {list(temporary.iterdir())}")

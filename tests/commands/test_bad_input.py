@@ -1,15 +1,14 @@
 """The bad-input catalogue: malformed study, claim and batch files a user plausibly
 writes. Each must end with exit status 2 and exactly one line on stderr that starts
 ``qhat: error:`` and names the place (file and field, or line and column), with no
-traceback, and nothing written (DESIGN.md section 3)."""
+traceback, and nothing written (docs/command-line.md, 'Exit status')."""
 
 from __future__ import annotations
 
 from pathlib import Path
 
 import pytest
-
-from infer.cli import main
+from conftest import DEMO, call_qhat
 
 STUDY = """\
 title = "Catalogue base study"
@@ -85,34 +84,37 @@ STUDY_CASES = [
 ]
 
 
-def _run(tmp_path: Path, argv: list[str], capsys) -> tuple[int, str]:
+def _run_writing_nothing(tmp_path: Path, argv: list[str], capsys) -> tuple[int, str]:
+    """``qhat *argv`` in-process; fails if anything appeared in (or left) ``tmp_path``."""
     before = sorted(p.name for p in tmp_path.iterdir())
-    status = main(argv)
-    err = capsys.readouterr().err
+    status, out, err = call_qhat(argv, capsys)
     after = sorted(p.name for p in tmp_path.iterdir())
-    assert after == before, "something was written"
+    assert after == before, (
+        f"bad input must write nothing (docs/command-line.md): folder went from {before} to "
+        f"{after}; stderr: {err}")
+    assert out == "", f"bad input must print nothing on stdout; printed {out!r}"
     return status, err
 
 
 def _assert_one_line(status: int, err: str, *needles: str) -> None:
-    assert status == 2
+    assert status == 2, f"bad input must exit 2 (docs/command-line.md); got {status}: {err}"
     lines = err.strip().splitlines()
-    assert len(lines) == 1, err
-    assert lines[0].startswith("qhat: error:"), err
-    assert "Traceback" not in err
+    assert len(lines) == 1, f"bad input must be exactly one stderr line; got {len(lines)}:\n{err}"
+    assert lines[0].startswith("qhat: error:"), f"the line must start 'qhat: error:': {err}"
+    assert "Traceback" not in err, f"bad input must not show a traceback:\n{err}"
     for needle in needles:
-        assert needle in lines[0], (needle, lines[0])
+        assert needle in lines[0], f"the error line must name {needle!r}; got {lines[0]!r}"
 
 
 @pytest.mark.parametrize("case,old,new,needle", STUDY_CASES, ids=[c[0] for c in STUDY_CASES])
 def test_bad_study(tmp_path, capsys, case, old, new, needle):
     text = STUDY + '"""'  # a sentinel end marker for the cases that append
-    assert old in text, case
+    assert old in text, f"test case {case!r} out of date: {old!r} is not in STUDY"
     text = text.replace(old, new, 1).removesuffix('"""')
     path = tmp_path / "study.toml"
     path.write_text(text, encoding="utf-8")
-    status, err = _run(tmp_path, ["estimate", str(path), "--out", str(tmp_path / "out")],
-                       capsys)
+    status, err = _run_writing_nothing(tmp_path, ["estimate", path, "--out", tmp_path / "out"],
+                                       capsys)
     _assert_one_line(status, err, "study.toml", needle)
 
 
@@ -130,20 +132,19 @@ def test_bad_study(tmp_path, capsys, case, old, new, needle):
 def test_bad_study_file(tmp_path, capsys, case, content, needle):
     path = tmp_path / "study.toml"
     path.write_bytes(content)
-    status, err = _run(tmp_path, ["estimate", str(path), "--out", str(tmp_path / "out")],
-                       capsys)
+    status, err = _run_writing_nothing(tmp_path, ["estimate", path, "--out", tmp_path / "out"],
+                                       capsys)
     _assert_one_line(status, err, "study.toml")
-    assert needle.lower() in err.lower(), err
+    assert needle.lower() in err.lower(), f"the error must mention {needle!r}: {err}"
 
 
 def test_missing_study_file(tmp_path, capsys):
-    status, err = _run(tmp_path, ["estimate", str(tmp_path / "absent.toml"), "--out",
-                                  str(tmp_path / "out")], capsys)
+    status, err = _run_writing_nothing(
+        tmp_path, ["estimate", tmp_path / "absent.toml", "--out", tmp_path / "out"], capsys)
     _assert_one_line(status, err, "absent.toml")
 
 
-CLAIM = (Path(__file__).resolve().parents[2] / "data_demo" /
-         "claim-northholm-indirect.toml").read_text(encoding="utf-8")
+CLAIM = (DEMO / "claim-northholm-indirect.toml").read_text(encoding="utf-8")
 
 CLAIM_CASES = [
     ("prior in a claim", "mu = { claimed = 5.1e-5, lower = 3.3e-5, upper = 7.6e-5 }",
@@ -165,16 +166,16 @@ CLAIM_CASES = [
 
 @pytest.mark.parametrize("case,old,new,needle", CLAIM_CASES, ids=[c[0] for c in CLAIM_CASES])
 def test_bad_claim(tmp_path, capsys, case, old, new, needle):
-    assert old in CLAIM, case
+    assert old in CLAIM, f"test case {case!r} out of date: {old!r} is not in the demo claim"
     path = tmp_path / "claim.toml"
     path.write_text(CLAIM.replace(old, new, 1), encoding="utf-8")
-    status, err = _run(tmp_path, ["check", str(path)], capsys)
+    status, err = _run_writing_nothing(tmp_path, ["check", path], capsys)
     _assert_one_line(status, err, "claim.toml", needle)
 
 
 # Batch CSVs: the rest of the catalogue (empty file, missing column, text, negative,
 # above total, duplicated locus, NaN, half an interval, short row, fractional count,
-# mu above 1, header only) is in tests/test_batch.py.
+# mu above 1, header only) is in tests/batch/test_batch.py.
 BATCH_HEADER = "locus,observed,sampled,mu,mu_lower,mu_upper\n"
 BATCH_GOOD = "GENE0001,3,1000,1e-6,5e-7,2e-6\n"
 
@@ -192,6 +193,7 @@ BATCH_GOOD = "GENE0001,3,1000,1e-6,5e-7,2e-6\n"
 def test_bad_batch_file(tmp_path, capsys, case, content, needle):
     path = tmp_path / "loci.csv"
     path.write_bytes(content)
-    status, err = _run(tmp_path, ["batch", str(path), "--out", str(tmp_path / "out")], capsys)
+    status, err = _run_writing_nothing(tmp_path, ["batch", path, "--out", tmp_path / "out"],
+                                       capsys)
     _assert_one_line(status, err, "loci.csv")
-    assert needle.lower() in err.lower(), err
+    assert needle.lower() in err.lower(), f"the error must mention {needle!r}: {err}"

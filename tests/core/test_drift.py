@@ -1,24 +1,25 @@
-"""Wright's stationary density (infer.core.drift.stationary) against closed forms, scipy.stats and mpmath.
+"""Wright's stationary density (infer.core.drift.stationary) against closed forms,
+scipy.stats and mpmath.
 
 Sources: Wright 1931, Genetics 16:97 (the stationary density; neutral case Beta(4Ne·u,
 4Ne·v)); Kummer's integral representation of 1F1 (Abramowitz & Stegun 13.2.1);
-mpmath.quad at 20+ digits via tests/drift_reference.py (independent quadrature).
+mpmath.quad at 20+ digits via tests/core/drift_reference.py (independent quadrature).
 """
 
 from __future__ import annotations
 
 import math
 
+import drift_reference as reference
 import mpmath as mp
 import numpy as np
 import pytest
 from scipy import special, stats
 
-import drift_reference as reference
 from infer.core.drift import stationary as drift
 from infer.errors import InputError
 
-RTOL = 1e-6  # DESIGN.md section 2: relative error <= 1e-6 against an mpmath reference
+RTOL = 1e-6  # docs/model.md: relative error <= 1e-6 against an mpmath reference
 
 
 # ------------------------------------------------------------------ neutral limit
@@ -52,8 +53,9 @@ def test_neutral_normaliser_is_beta_function_over_the_range():
     b = np.logspace(-6, 1, 15)[None, :]
     Ne = 1000.0
     got = drift.log_normaliser(Ne, a / (4 * Ne), 0.0, 0.5, b / (4 * Ne))
-    assert got.shape == (15, 15)
-    np.testing.assert_allclose(got, special.betaln(a, b), rtol=1e-12, atol=1e-12)
+    assert got.shape == (15, 15), f"broadcast (15, 1) x (1, 15) gave shape {got.shape}"
+    np.testing.assert_allclose(got, special.betaln(a, b), rtol=1e-12, atol=1e-12,
+                               err_msg="s = 0: log Z must be log B(a, b) (scipy betaln)")
 
 
 def test_neutral_sample_probability_is_beta_binomial():
@@ -63,11 +65,13 @@ def test_neutral_sample_probability_is_beta_binomial():
     for n in (1, 10, 1000, 10**6):
         k = np.unique(np.array([0, 1, n // 3, n - 1, n]).clip(0, n))
         got = drift.log_binomial_probability(k, n, Ne, mu, 0.0, 0.5, nu)
-        np.testing.assert_allclose(got, stats.betabinom.logpmf(k, n, a, b), rtol=1e-9, atol=1e-9)
+        np.testing.assert_allclose(got, stats.betabinom.logpmf(k, n, a, b), rtol=1e-9, atol=1e-9,
+                                   err_msg=f"s = 0, n = {n}: log P(k) vs scipy betabinom.logpmf")
         np.testing.assert_allclose(
             drift.probability_absent(n, Ne, mu, 0.0, 0.5, nu),
             stats.betabinom.pmf(0, n, a, b),
             rtol=1e-8,
+            err_msg=f"s = 0, n = {n}: P(absent) vs scipy betabinom.pmf(0)",
         )
 
 
@@ -78,10 +82,13 @@ def test_underflowing_quantiles_are_zero():
     Ne, mu, nu = 1000.0, 1e-9, 1e-7
     a, b = 4 * Ne * mu, 4 * Ne * nu
     log10_median = (math.log(0.5) + math.log(a) + special.betaln(a, b)) / a / math.log(10)
-    assert log10_median < -300
+    assert log10_median < -300, f"test premise: the median 10^{log10_median:.0f} must underflow"
     got = drift.stationary_summary(Ne, mu, 0.0, 0.5, nu)
-    assert got["median"] == 0.0 and got["lower"] == 0.0
-    np.testing.assert_allclose(got["mean"], a / (a + b), rtol=1e-9)
+    assert got["median"] == 0.0 and got["lower"] == 0.0, (
+        f"a median of 10^{log10_median:.0f} must be reported as 0.0; got median "
+        f"{got['median']}, lower {got['lower']}")
+    np.testing.assert_allclose(got["mean"], a / (a + b), rtol=1e-9,
+                               err_msg="s = 0: the mean must be a/(a+b) (Beta mean)")
 
 
 # ------------------------------------------------------------------ h = 1/2: Kummer
@@ -102,7 +109,9 @@ def test_normaliser_h_half_is_kummer(a, four_ne_s):
     for b in (1e-6, 0.01, 1.0, 10.0):
         got = drift.log_normaliser(Ne, a / (4 * Ne), four_ne_s / (4 * Ne), 0.5, b / (4 * Ne))
         expected = _log_kummer(a, b, four_ne_s / 2)
-        assert abs(got - expected) <= RTOL * 1e-3 * max(1.0, abs(expected))
+        assert abs(got - expected) <= RTOL * 1e-3 * max(1.0, abs(expected)), (
+            f"h = 1/2, a = {a}, b = {b}, 4Ne·s = {four_ne_s}: log Z {float(got)!r} vs Kummer "
+            f"(mpmath hyp1f1) {expected!r}")
 
 
 @pytest.mark.slow
@@ -130,11 +139,13 @@ def test_binomial_h_half_is_kummer_with_shifted_exponents():
                     special.gammaln(n + 1) - special.gammaln(k + 1) - special.gammaln(n - k + 1)
                 )
                 expected = log_choose + _log_kummer(a + k, b + (n - k), c) - _log_kummer(a, b, c)
-                assert abs(got - expected) <= RTOL, (a, b, four_ne_s, n, k, got, expected)
+                assert abs(got - expected) <= RTOL, (
+                    f"h = 1/2, (a, b, 4Ne·s, n, k) = {(a, b, four_ne_s, n, k)}: log P(k of n) "
+                    f"{float(got)!r} vs Kummer (mpmath hyp1f1) {expected!r}")
 
 
 # ------------------------------------------------------------------ general h: mpmath sweep
-EDGE_CASES = [  # (4Ne·mu, 4Ne·s, h, 4Ne·nu, n, k): corners of DESIGN.md's range
+EDGE_CASES = [  # (4Ne·mu, 4Ne·s, h, 4Ne·nu, n, k): corners of the range in docs/model.md
     (1e-6, 1e5, 0.0, 1e-6, 10**6, 0),
     (1e-6, 1e5, 1.0, 1e-3, 10**6, 1),
     (10.0, 1e5, 0.0, 0.1, 10**6, 10**6 // 2),
@@ -161,12 +172,17 @@ def _random_cases(seed, count):
 def _check_case(a, four_ne_s, h, b, n, k):
     Ne = 1e5  # s = 4Ne·s/(4Ne) stays at most 1
     mu, s, nu = a / (4 * Ne), four_ne_s / (4 * Ne), b / (4 * Ne)
+    case = f"(4Ne·mu, 4Ne·s, h, 4Ne·nu, n, k) = {(a, four_ne_s, h, b, n, k)}"
     log_z = float(reference.log_z_drift(Ne, mu, s, h, nu))
-    assert abs(drift.log_normaliser(Ne, mu, s, h, nu) - log_z) <= RTOL * max(1, abs(log_z))
+    got = float(drift.log_normaliser(Ne, mu, s, h, nu))
+    assert abs(got - log_z) <= RTOL * max(1, abs(log_z)), (
+        f"log Z {got!r} vs mpmath.quad {log_z!r} at {case}")
     mean = float(reference.mean(Ne, mu, s, h, nu))
-    assert abs(drift.stationary_summary(Ne, mu, s, h, nu)["mean"] / mean - 1) <= RTOL
+    got = float(drift.stationary_summary(Ne, mu, s, h, nu)["mean"])
+    assert abs(got / mean - 1) <= RTOL, f"mean {got!r} vs mpmath.quad {mean!r} at {case}"
     log_p = float(reference.log_binomial(k, n, Ne, mu, s, h, nu))
-    assert abs(drift.log_binomial_probability(k, n, Ne, mu, s, h, nu) - log_p) <= RTOL
+    got = float(drift.log_binomial_probability(k, n, Ne, mu, s, h, nu))
+    assert abs(got - log_p) <= RTOL, f"log P(k of n) {got!r} vs mpmath.quad {log_p!r} at {case}"
 
 
 @pytest.mark.slow
@@ -191,9 +207,11 @@ def test_large_ne_mean_converges_to_deterministic_q_hat():
         abs(drift.stationary_summary(Ne, mu, s, h, nu)["mean"] / target - 1)
         for Ne in (1e3, 1e4, 1e5)
     ]
-    assert gaps[0] > gaps[1] > gaps[2]
-    assert gaps[2] < 1e-3
-    assert gaps[1] / gaps[2] > 5
+    assert gaps[0] > gaps[1] > gaps[2], (
+        f"the gap to q_hat must shrink as Ne grows 1e3, 1e4, 1e5; gaps {gaps}")
+    assert gaps[2] < 1e-3, f"at Ne = 1e5 the mean must be within 0.1 % of q_hat; gap {gaps[2]}"
+    assert gaps[1] / gaps[2] > 5, (
+        f"the gap must shrink roughly like 1/Ne (ratio ~10 per decade); ratio {gaps[1] / gaps[2]}")
 
 
 def _gamma_moment(j, Ne, mu, s):
@@ -203,13 +221,18 @@ def _gamma_moment(j, Ne, mu, s):
     return math.exp(special.gammaln((a + j) / 2) - special.gammaln(a / 2) - j / 2 * math.log(c))
 
 
+#: E[q] for mu = 1e-5, s = 1 (REFERENCES.md, "Complete recessive, v → 0" [derived])
 RECESSIVE_CHECKS = [(50, 1.770e-4), (500, 5.529e-4), (5000, 1.565e-3), (50000, 2.803e-3)]
 
 
 @pytest.mark.parametrize("Ne, published", RECESSIVE_CHECKS)
 def test_recessive_closed_form_check_values(Ne, published):
-    """E[q] = Γ(2Ne·mu + ½)/(Γ(2Ne·mu)·√(2Ne·s)) for mu = 1e-5, s = 1 (REFERENCES.md, derived)."""
-    assert _gamma_moment(1, Ne, 1e-5, 1.0) == pytest.approx(published, rel=1e-3)
+    """E[q] = Γ(2Ne·mu + ½)/(Γ(2Ne·mu)·√(2Ne·s)) for mu = 1e-5, s = 1 (REFERENCES.md, derived):
+    the test's own Gamma-integral helper reproduces the tabled values."""
+    got = _gamma_moment(1, Ne, 1e-5, 1.0)
+    assert got == pytest.approx(published, rel=1e-3), (
+        f"Ne = {Ne}: the Gamma-integral helper gives {got:.4g}; REFERENCES.md tables "
+        f"{published}")
 
 
 @pytest.mark.parametrize("Ne", [50, 500, 5000, 50000])
@@ -220,8 +243,10 @@ def test_recessive_gamma_integral_is_exact_when_four_ne_nu_is_one(Ne):
     mu, s = 1e-5, 1.0
     got = drift.stationary_summary(Ne, mu, s, 0.0, 1 / (4 * Ne))
     mean = _gamma_moment(1, Ne, mu, s)
-    np.testing.assert_allclose(got["mean"], mean, rtol=1e-9)
-    np.testing.assert_allclose(got["sd"] ** 2 + got["mean"] ** 2, mu / s, rtol=1e-8)
+    np.testing.assert_allclose(got["mean"], mean, rtol=1e-9,
+                               err_msg=f"Ne = {Ne}: E[q] vs the Gamma integral (derived)")
+    np.testing.assert_allclose(got["sd"] ** 2 + got["mean"] ** 2, mu / s, rtol=1e-8,
+                               err_msg=f"Ne = {Ne}: E[q²] must be mu/s (derived)")
 
 
 @pytest.mark.parametrize("Ne", [50, 500, 5000, 50000])
@@ -238,11 +263,19 @@ def test_recessive_with_nu_to_zero(Ne):
     mean = sum(moments[1:21]) / norm
     second = sum(moments[2:22]) / norm
     got = drift.stationary_summary(Ne, mu, s, 0.0, nu)
-    np.testing.assert_allclose(got["mean"], mean, rtol=1e-7)
-    np.testing.assert_allclose(got["sd"] ** 2 + got["mean"] ** 2, second, rtol=1e-6)
+    np.testing.assert_allclose(got["mean"], mean, rtol=1e-7,
+                               err_msg=f"Ne = {Ne}: E[q] vs the Gamma-integral series (derived)")
+    np.testing.assert_allclose(got["sd"] ** 2 + got["mean"] ** 2, second, rtol=1e-6,
+                               err_msg=f"Ne = {Ne}: E[q²] vs the Gamma-integral series")
     leading = _gamma_moment(1, Ne, mu, s)
-    assert abs(got["mean"] - leading - mu / s) < 3 * (mu / s) * math.sqrt(mu / s) / leading + 1e-12
-    assert got["sd"] ** 2 + got["mean"] ** 2 == pytest.approx(mu / s, rel=0.2)
+    bound = 3 * (mu / s) * math.sqrt(mu / s) / leading + 1e-12
+    gap = abs(got["mean"] - leading - mu / s)
+    assert gap < bound, (
+        f"Ne = {Ne}: E[q] - closed form - mu/s = {gap:.3g} exceeds the next-order bound "
+        f"{bound:.3g} (derived)")
+    second_moment = got["sd"] ** 2 + got["mean"] ** 2
+    assert second_moment == pytest.approx(mu / s, rel=0.2), (
+        f"Ne = {Ne}: E[q²] = {float(second_moment):.4g} must be near mu/s = {mu / s:g}")
 
 
 # ------------------------------------------------------------------ sensitivity to nu
@@ -263,7 +296,9 @@ def test_strong_selection_answer_does_not_depend_on_nu():
             values = np.array([summary[key] for summary in summaries])
             np.testing.assert_allclose(values, values[0], rtol=1e-4, err_msg=key)
     neutral = [drift.stationary_summary(1000, 1e-5, 0.0, 0.5, nu)["mean"] for nu in (1e-7, 1e-5)]
-    assert neutral[0] / neutral[1] > 1.5
+    # control: a/(a+b) is 0.99 at nu = 1e-7 and 0.5 at nu = 1e-5 (Beta mean, closed form)
+    assert neutral[0] / neutral[1] > 1.5, (
+        f"control failed: the neutral mean must depend on nu; means {neutral}")
 
 
 # ------------------------------------------------------------------ identities and arbitrary P
@@ -276,7 +311,8 @@ def test_sample_probabilities_sum_to_one():
         (30, 0.01, 0.0, 1, 0.01),
     ]:
         total = np.exp(drift.log_binomial_probability(k, 30, Ne, mu, s, h, nu)).sum()
-        assert total == pytest.approx(1.0, rel=1e-9)
+        assert total == pytest.approx(1.0, rel=1e-9), (
+            f"Σ_k P(k of 30) = {total!r}, must be 1, at (Ne, mu, s, h, nu) = {(Ne, mu, s, h, nu)}")
 
 
 def test_log_expectation_matches_binomial_and_genotype_closed_forms():
@@ -299,7 +335,8 @@ def test_log_expectation_matches_binomial_and_genotype_closed_forms():
 
         got = drift.log_expectation(log_p, Ne, mu, s, h, nu)
         np.testing.assert_allclose(
-            got, drift.log_binomial_probability(k, n, Ne, mu, s, h, nu), atol=1e-8
+            got, drift.log_binomial_probability(k, n, Ne, mu, s, h, nu), atol=1e-8,
+            err_msg=f"log_expectation of a binomial ({k} of {n}) vs log_binomial_probability",
         )
 
     AA, Aa, aa = 480, 18, 2
@@ -328,7 +365,8 @@ def test_log_expectation_matches_binomial_and_genotype_closed_forms():
         - special.betaln(a, b)
     )
     np.testing.assert_allclose(
-        drift.log_expectation(genotypes, Ne, mu, 0.0, 0.5, nu), expected, atol=1e-8
+        drift.log_expectation(genotypes, Ne, mu, 0.0, 0.5, nu), expected, atol=1e-8,
+        err_msg="s = 0 genotype multinomial vs its Beta-function closed form (derived)",
     )
 
 
@@ -336,15 +374,16 @@ def test_broadcasting_matches_elementwise():
     Ne = np.array([[30.0], [300.0], [3000.0]])
     s = np.array([0.0, 0.01, 0.1, 1.0])
     got = drift.log_binomial_probability(2, 100, Ne, 1e-4, s, 0.3, 1e-6)
-    assert got.shape == (3, 4)
+    assert got.shape == (3, 4), f"broadcast (3, 1) x (4,) gave shape {got.shape}"
     for i in range(3):
         for j in range(4):
-            assert got[i, j] == pytest.approx(
-                float(drift.log_binomial_probability(2, 100, Ne[i, 0], 1e-4, s[j], 0.3, 1e-6)),
-                abs=1e-12,
-            )
+            one = float(drift.log_binomial_probability(2, 100, Ne[i, 0], 1e-4, s[j], 0.3, 1e-6))
+            assert got[i, j] == pytest.approx(one, abs=1e-12), (
+                f"broadcast value {got[i, j]!r} vs scalar call {one!r} at Ne = {Ne[i, 0]}, "
+                f"s = {s[j]}")
     summary = drift.stationary_summary(Ne, 1e-4, s, 0.3, 1e-6)
-    assert all(value.shape == (3, 4) for value in summary.values())
+    shapes = {key: value.shape for key, value in summary.items()}
+    assert all(shape == (3, 4) for shape in shapes.values()), f"summary shapes: {shapes}"
 
 
 @pytest.mark.parametrize(
@@ -361,7 +400,8 @@ def test_impossible_parameters_raise_input_error(kwargs, field):
     params = dict(Ne=100.0, mu=1e-5, s=0.1, h=0.5, nu=1e-7) | kwargs
     with pytest.raises(InputError) as error:
         drift.log_normaliser(**params)
-    assert error.value.field == field
+    assert error.value.field == field, (
+        f"{kwargs} must be rejected naming {field!r}; the error names {error.value.field!r}")
 
 
 def test_impossible_counts_raise_input_error():

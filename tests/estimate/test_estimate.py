@@ -1,13 +1,19 @@
 """The estimate pipeline: sampler against the exact grid, classic estimators in the
-large-sample limit, and the determinism of the summary."""
+large-sample limit, and the determinism of the summary.
+
+References: the exact quadrature posterior (infer.inference.grid, itself checked against
+scipy.stats closed forms in tests/inference/test_grid.py); the direct and indirect
+(Haldane) estimators of the mutation rate (Haldane 1935, J. Genet. 31:317; Vogel &
+Motulsky, *Human Genetics*; REFERENCES.md).
+"""
 
 import numpy as np
 import pytest
 
 from infer.estimate.pipeline import estimate
+from infer.files.study import parse_study
 from infer.inference.grid import compare_with_draws, grid_posterior
 from infer.model.posterior import Model
-from infer.files.study import parse_study
 
 LOG_MU = {"prior": "log-uniform", "low": 1e-8, "high": 1e-3}
 UNIFORM = {"prior": "uniform", "low": 0.0, "high": 1.0}
@@ -69,7 +75,8 @@ CASES = {
 }
 
 
-def _run(name):
+def _fit(name):
+    """The estimate of CASES[name] (x-linked when the name says so), seed 5."""
     parameters, observations = CASES[name]
     inheritance = "x-linked" if name.startswith("x-linked") else "autosomal"
     return estimate(study(parameters, observations, inheritance))[0]
@@ -77,18 +84,22 @@ def _run(name):
 
 @pytest.mark.parametrize("name", ["affected/2", "sporadic/1"])
 def test_sampler_matches_grid_quick(name):
-    result = _run(name)
-    assert result.summary["diagnostics"]["converged"]
-    assert result.summary["grid"]["agrees"], result.summary["grid"]
+    result = _fit(name)
+    diagnostics = result.summary["diagnostics"]
+    assert diagnostics["converged"], f"{name}: the sampler did not converge: {diagnostics}"
+    assert result.summary["grid"]["agrees"], (
+        f"{name}: sampler median/interval vs the exact grid (2 % / 5 %): "
+        f"{result.summary['grid']}")
 
 
 @pytest.mark.slow
 @pytest.mark.parametrize("name", sorted(set(CASES) - {"affected/2", "sporadic/1"}))
 def test_sampler_matches_grid_every_kind(name):
-    result = _run(name)
-    assert result.summary["diagnostics"]["converged"]
+    result = _fit(name)
+    diagnostics = result.summary["diagnostics"]
+    assert diagnostics["converged"], f"{name}: the sampler did not converge: {diagnostics}"
     check = compare_with_draws(result.grid, result.posterior, 0.95)
-    assert check["agrees"], check
+    assert check["agrees"], f"{name}: sampler vs the exact grid (2 % / 5 %): {check}"
 
 
 def _median(st, name):
@@ -101,7 +112,10 @@ def test_direct_method_large_sample():
     cases, births = 4_000, 50_000_000
     st = study({"mu": LOG_MU, "s": 0.8, "h": 1.0},
                [{"kind": "sporadic", "cases": cases, "births": births, "mode": "dominant"}])
-    assert _median(st, "mu") == pytest.approx(cases / (2 * births), rel=0.01)
+    median, expected = _median(st, "mu"), cases / (2 * births)
+    assert median == pytest.approx(expected, rel=0.01), (
+        f"posterior median of mu {median:.5g} vs the direct estimate cases/(2 births) = "
+        f"{expected:.5g} (1 %)")
 
 
 def _fertility(affected_children, reference_children, mode, people=100_000):
@@ -130,8 +144,13 @@ def test_indirect_method_large_sample(inheritance, mode, h, divisor):
     ]
     st = study({"mu": LOG_MU, "s": UNIFORM, "h": h}, observations, inheritance)
     expected = (1 - f) * x / divisor
-    assert _median(st, "mu") == pytest.approx(expected, rel=0.03)
-    assert _median(st, "s") == pytest.approx(1 - f, rel=0.01)
+    median = _median(st, "mu")
+    assert median == pytest.approx(expected, rel=0.03), (
+        f"{mode}: posterior median of mu {median:.5g} vs Haldane's (1 - f) x / {divisor:g} = "
+        f"{expected:.5g} (3 %)")
+    median = _median(st, "s")
+    assert median == pytest.approx(1 - f, rel=0.01), (
+        f"{mode}: posterior median of s {median:.5g} vs 1 - f = {1 - f} (1 %)")
 
 
 def test_same_seed_same_summary():
@@ -140,16 +159,21 @@ def test_same_seed_same_summary():
     parameters, observations = CASES["affected/2"]
     a = estimate(study(parameters, observations, seed=9))[0]
     b = estimate(study(parameters, observations, seed=9))[0]
-    assert dumps(a.summary) == dumps(b.summary)
+    # docs/reports.md: the summary depends on the study and the seed alone
+    assert dumps(a.summary) == dumps(b.summary), "the same study and seed gave two summaries"
 
 
 def test_frequency_data_alone_identify_only_the_ratio():
     """Common practice (Crow & Kimura 1970): allele frequencies alone fix q ~ mu/(hs),
     not mu and s separately; the report must say so."""
-    result = _run("allele-count/2")
+    result = _fit("allele-count/2")
     text = " ".join(result.summary["identifiability"])
-    assert "mu/(h*s)" in text or "mu/s" in text
-    assert result.summary["parameters"]["s"]["contraction"] < 0.5
+    assert "mu/(h*s)" in text or "mu/s" in text, (
+        f"the identifiability notes must name the ratio mu/(hs) or mu/s: {text!r}")
+    contraction = result.summary["parameters"]["s"]["contraction"]
+    assert contraction < 0.5, (
+        f"allele counts alone cannot pin s: its contraction must stay below 0.5, got "
+        f"{contraction}")
 
 
 def test_predictive_p_value_flags_an_impossible_observation():
@@ -159,21 +183,33 @@ def test_predictive_p_value_flags_an_impossible_observation():
                 "h": 1.0},
                [{"kind": "sporadic", "cases": 400, "births": 10_000, "mode": "dominant"}])
     result = estimate(st)[0]
-    assert result.summary["predictive"][0]["p_value"] < 0.01
+    check = result.summary["predictive"][0]
+    assert check["p_value"] < 0.01, (
+        f"400 cases in 10,000 births need mu = 0.02 > the prior cap 1e-4: the predictive "
+        f"p-value must be < 0.01; got {check}")
 
 
 def test_summary_has_the_contract_keys():
-    result = _run("affected/2")
+    result = _fit("affected/2")
     s = result.summary
-    for key in ("interval", "inheritance", "model", "parameters", "derived", "diagnostics",
-                "predictive"):
-        assert key in s
-    for key in ("median", "mean", "sd", "lower", "upper", "ess_bulk", "ess_tail", "r_hat",
-                "prior_lower", "prior_upper", "contraction", "fixed"):
-        assert key in s["parameters"]["mu"]
-    for key in ("converged", "walkers", "steps", "burn_in", "autocorr_time"):
-        assert key in s["diagnostics"]
-    for key in ("label", "kind", "observed", "expected_median", "p_value"):
-        assert key in s["predictive"][0]
-    assert {"q_hat", "load"} <= set(s["derived"])
-    assert np.isfinite(s["derived"]["q_hat"]["median"])
+    # the summary.json contract of docs/reports.md
+    contract = {
+        "summary": (s, ("interval", "inheritance", "model", "parameters", "derived",
+                        "diagnostics", "predictive")),
+        "parameters.mu": (s["parameters"]["mu"],
+                          ("median", "mean", "sd", "lower", "upper", "ess_bulk", "ess_tail",
+                           "r_hat", "prior_lower", "prior_upper", "contraction", "fixed")),
+        "diagnostics": (s["diagnostics"],
+                        ("converged", "walkers", "steps", "burn_in", "autocorr_time")),
+        "predictive[0]": (s["predictive"][0],
+                          ("label", "kind", "observed", "expected_median", "p_value")),
+        "derived": (s["derived"], ("q_hat", "load")),
+    }
+    for where, (table, keys) in contract.items():
+        missing = [key for key in keys if key not in table]
+        assert not missing, f"summary {where} lacks {missing}; has {sorted(table)}"
+    q = s["derived"]["q_hat"]["median"]
+    assert np.isfinite(q), f"derived q_hat median must be finite; got {q}"
+    # the data: 19 affected and 15 sporadic cases in 182,400 births (CASES["affected/2"])
+    observed = [p["observed"] for p in s["predictive"]]
+    assert observed == [19, 15], f"predictive 'observed' must be the study's counts: {observed}"

@@ -1,7 +1,8 @@
 """Study files: a good study round-trips; every kind of bad input is one clear line.
 
 The TOML grammar (line/column in parser errors) is Python's ``tomllib`` (TOML 1.0,
-common practice); everything else checked here is the contract of DESIGN.md section 3.
+common practice); everything else checked here is the contract of docs/files.md,
+'Study files' (the defaults, the one-line messages naming file, field and value).
 """
 
 from __future__ import annotations
@@ -11,9 +12,11 @@ import math
 import pytest
 
 from infer.errors import InputError
-from infer.model.observations.kinds import Affected, Fertility, Sporadic
-from infer.model.priors.parsing import Beta, Fixed, LogUniform, Uniform
 from infer.files.study import load_study, parse_study, study_document
+from infer.model.observations.fertility import Fertility
+from infer.model.observations.frequency import Affected
+from infer.model.observations.sporadic import Sporadic
+from infer.model.priors.parsing import Beta, Fixed, LogUniform, Uniform
 
 GOOD = """\
 title = "Dominant disorder, Isle of Brannoch birth registry"
@@ -89,20 +92,26 @@ def write(tmp_path, text, name="study.toml"):
 
 def test_good_study_parses_with_defaults(tmp_path):
     study = load_study(write(tmp_path, GOOD))
-    assert study.title.startswith("Dominant disorder")
-    assert (study.inheritance, study.model, study.interval) == ("autosomal", "deterministic", 0.9)
-    assert study.parameters["mu"] == LogUniform("mu", 1e-8, 1e-3)
-    assert study.parameters["s"] == Beta("s", 2.0, 2.0)
-    assert study.parameters["h"] == Fixed("h", 1.0)
-    assert study.defaulted == {"F", "nu", "Ne", "alpha"}
-    assert study.parameters["F"] == Fixed("F", 0.0)
-    assert study.free == ["mu", "s"]
-    assert study.fixed["h"] == 1.0
-    assert study.seed == 3 and study.sampler == {"seed": 3, "walkers": 16}
+    assert study.title == "Dominant disorder, Isle of Brannoch birth registry", study.title
+    top = (study.inheritance, study.model, study.interval)
+    assert top == ("autosomal", "deterministic", 0.9), f"top-level keys read as {top}"
+    expected = {"mu": LogUniform("mu", 1e-8, 1e-3), "s": Beta("s", 2.0, 2.0),
+                "h": Fixed("h", 1.0), "F": Fixed("F", 0.0)}  # F: the default of docs/files.md
+    for name, prior in expected.items():
+        assert study.parameters[name] == prior, (
+            f"parameters.{name} read as {study.parameters[name]!r}; the file says {prior!r}")
+    assert study.defaulted == {"F", "nu", "Ne", "alpha"}, (
+        f"the parameters the file leaves out are F, nu, Ne, alpha; defaulted = {study.defaulted}")
+    assert study.free == ["mu", "s"], f"mu and s have priors, h is fixed; free = {study.free}"
+    assert study.fixed["h"] == 1.0, f"h = 1.0 in the file; fixed h = {study.fixed['h']}"
+    assert study.seed == 3 and study.sampler == {"seed": 3, "walkers": 16}, (
+        f"[sampler] seed = 3, walkers = 16; read seed {study.seed}, sampler {study.sampler}")
     kinds = [type(o) for o in study.observations]
-    assert kinds == [Affected, Sporadic, Fertility]
-    assert [o.label for o in study.observations] == ["affected 1", "new mutations", "fertility 3"]
-    assert study.path == str(tmp_path / "study.toml")
+    assert kinds == [Affected, Sporadic, Fertility], f"observation kinds read as {kinds}"
+    labels = [o.label for o in study.observations]
+    # an unlabelled observation is named "<kind> <position>" (docs/files.md)
+    assert labels == ["affected 1", "new mutations", "fertility 3"], f"labels: {labels}"
+    assert study.path == str(tmp_path / "study.toml"), f"study.path = {study.path!r}"
 
 
 def test_good_study_round_trips(tmp_path):
@@ -111,19 +120,24 @@ def test_good_study_round_trips(tmp_path):
     second = load_study(write(tmp_path, text, "again.toml"))
     for name in ("title", "inheritance", "model", "interval", "parameters", "observations",
                  "seed", "sampler"):
-        assert getattr(second, name) == getattr(first, name), name
-    assert second.defaulted == {"Ne"}  # not used by the deterministic model, not written
+        assert getattr(second, name) == getattr(first, name), (
+            f"{name} changed on a round trip through study_document:\n{text}")
+    # Ne is not used by the deterministic model, so study_document does not write it
+    assert second.defaulted == {"Ne"}, (
+        f"after the round trip only Ne may be defaulted; defaulted = {second.defaulted}")
 
 
 def test_omitted_keys_take_defaults_and_title_defaults_to_file_name(tmp_path):
     text = '[[observations]]\nkind = "allele-count"\nobserved = 3\nsampled = 1000\n'
     study = load_study(write(tmp_path, text, "island.toml"))
-    assert study.title == "island"
-    assert (study.inheritance, study.model, study.interval) == ("autosomal", "deterministic", 0.95)
-    assert study.parameters["mu"] == LogUniform("mu", 1e-9, 1e-3)
-    assert study.parameters["s"] == Uniform("s", 0.0, 1.0)
-    assert study.free == ["mu", "s", "h"]
-    assert study.seed is None
+    # the defaults documented in docs/files.md, 'Study files'
+    assert study.title == "island", f"the title must default to the file stem; {study.title!r}"
+    top = (study.inheritance, study.model, study.interval)
+    assert top == ("autosomal", "deterministic", 0.95), f"top-level defaults read as {top}"
+    assert study.parameters["mu"] == LogUniform("mu", 1e-9, 1e-3), study.parameters["mu"]
+    assert study.parameters["s"] == Uniform("s", 0.0, 1.0), study.parameters["s"]
+    assert study.free == ["mu", "s", "h"], f"mu, s, h are free by default; free = {study.free}"
+    assert study.seed is None, f"no [sampler] seed: seed must be None, got {study.seed}"
 
 
 def test_drift_defaults_and_x_linked(tmp_path):
@@ -132,15 +146,17 @@ def test_drift_defaults_and_x_linked(tmp_path):
         "parameters": {"Ne": {"prior": "log-uniform", "low": 100, "high": 1e5}},
         "observations": [{"kind": "allele-count", "observed": 3, "sampled": 1000}],
     }, source="drift.toml")
-    assert drift.parameters["nu"] == Fixed("nu", 1e-9)
-    assert drift.free == ["mu", "s", "h", "Ne"]
+    assert drift.parameters["nu"] == Fixed("nu", 1e-9), (
+        f"the drift model's default back mutation is nu = 1e-9; got {drift.parameters['nu']!r}")
+    assert drift.free == ["mu", "s", "h", "Ne"], f"drift free parameters: {drift.free}"
     x = parse_study({
         "inheritance": "x-linked",
         "parameters": {"h": 0.0, "alpha": {"prior": "log-normal", "median": 3, "sigma": 0.5}},
         "observations": [{"kind": "affected", "affected": 4, "total": 20000,
                           "mode": "x-linked-male"}],
     }, source="x.toml")
-    assert x.free == ["mu", "s", "alpha"]
+    assert x.free == ["mu", "s", "alpha"], (
+        f"X-linked with h fixed and a prior on alpha: free must be mu, s, alpha; got {x.free}")
 
 
 def test_all_fixed_allowed_only_on_request():
@@ -148,13 +164,15 @@ def test_all_fixed_allowed_only_on_request():
                 "observations": [{"kind": "allele-count", "observed": 3, "sampled": 1000}]}
     with pytest.raises(InputError, match="no free parameter to estimate"):
         parse_study(document, source="fixed.toml")
-    assert parse_study(document, source="fixed.toml", require_free=False).free == []
+    free = parse_study(document, source="fixed.toml", require_free=False).free
+    assert free == [], f"every parameter fixed: free must be []; got {free}"
 
 
 def test_utf8_with_byte_order_mark_is_read(tmp_path):
     path = tmp_path / "bom.toml"
     path.write_bytes(b"\xef\xbb\xbf" + GOOD.encode("utf-8"))
-    assert load_study(path).free == ["mu", "s"]
+    free = load_study(path).free
+    assert free == ["mu", "s"], f"a UTF-8 byte order mark must be skipped; free = {free}"
 
 
 OBS = '\n[[observations]]\nkind = "affected"\naffected = 3\ntotal = 10\nmode = "dominant"\n'
@@ -239,22 +257,24 @@ def test_bad_study_is_one_line_naming_file_field_and_value(tmp_path, text, field
     with pytest.raises(InputError) as caught:
         load_study(path)
     error = caught.value
-    assert error.source == str(path)
-    assert error.field == field
-    assert message in error.message
+    assert error.source == str(path), f"the error must name the file; source = {error.source!r}"
+    assert error.field == field, f"the error must name field {field!r}; got {error.field!r}"
+    assert message in error.message, f"expected {message!r} in the message {error.message!r}"
     line = str(error)
-    assert line.startswith(f"{path}: {field}: ")
-    assert "\n" not in line
+    assert line.startswith(f"{path}: {field}: "), f"the line must read 'file: field: ...': {line!r}"
+    assert "\n" not in line, f"the message must be one line: {line!r}"
 
 
 def test_unreadable_files(tmp_path):
     missing = tmp_path / "absent.toml"
     with pytest.raises(InputError) as caught:
         load_study(missing)
-    assert str(caught.value).startswith(f"{missing}: cannot read the file")
+    line = str(caught.value)
+    assert line.startswith(f"{missing}: cannot read the file"), f"missing file: {line!r}"
     with pytest.raises(InputError) as caught:
         load_study(tmp_path)
-    assert str(caught.value).startswith(f"{tmp_path}: cannot read the file")
+    line = str(caught.value)
+    assert line.startswith(f"{tmp_path}: cannot read the file"), f"a folder as study: {line!r}"
 
 
 def test_file_not_utf8(tmp_path):
@@ -263,8 +283,12 @@ def test_file_not_utf8(tmp_path):
     with pytest.raises(InputError) as caught:
         load_study(path)
     line = str(caught.value)
-    assert line.startswith(f"{path}: the file is not UTF-8 text (byte 0xce at offset 9)")
-    assert "\n" not in line
+    # 'title = "' is 9 bytes, then Î, which latin-1 writes as the single byte 0xce
+    # (ISO 8859-1 table): in UTF-8 that is a lead byte, and "l" after it is no
+    # continuation byte (RFC 3629, section 3), so decoding fails at offset 9
+    assert line.startswith(f"{path}: the file is not UTF-8 text (byte 0xce at offset 9)"), (
+        f"the message must name the first bad byte and its offset: {line!r}")
+    assert "\n" not in line, f"the message must be one line: {line!r}"
 
 
 def test_invalid_toml_gives_line_and_column(tmp_path):
@@ -272,6 +296,8 @@ def test_invalid_toml_gives_line_and_column(tmp_path):
     with pytest.raises(InputError) as caught:
         load_study(path)
     line = str(caught.value)
-    assert line.startswith(f"{path}: invalid TOML: ")
-    assert "line 3" in line and "column" in line
-    assert "\n" not in line
+    assert line.startswith(f"{path}: invalid TOML: "), f"TOML syntax error: {line!r}"
+    assert "line 3" in line and "column" in line, (
+        f"the error is on line 3 (the 'low = }}' line): the message must say line 3 and a "
+        f"column: {line!r}")
+    assert "\n" not in line, f"the message must be one line: {line!r}"

@@ -14,7 +14,8 @@ def test_neutral_quantiles_are_beta_quantiles(Ne, mu, nu):
     p = np.array([0.05, 0.25, 0.5, 0.75, 0.95])
     got = drift.stationary_quantile(p, Ne, mu, 0.0, 0.5, nu)
     ref = stats.beta(4 * Ne * mu, 4 * Ne * nu).ppf(p)
-    assert got == pytest.approx(ref, rel=1e-6, abs=1e-300)
+    assert got == pytest.approx(ref, rel=1e-6, abs=1e-300), (
+        f"s = 0, (Ne, mu, nu) = {(Ne, mu, nu)}: quantiles {got} vs scipy beta.ppf {ref}")
 
 
 def test_quantile_inverts_the_density():
@@ -26,14 +27,18 @@ def test_quantile_inverts_the_density():
         x = float(drift.stationary_quantile(p, Ne, mu, s, h, nu))
         mass = integrate.quad(lambda v: drift.stationary_density(v, Ne, mu, s, h, nu), 0, x,
                               limit=200, points=[min(x, 1e-3)])[0]
-        assert mass == pytest.approx(p, rel=1e-4)
+        assert mass == pytest.approx(p, rel=1e-4), (
+            f"the {p} quantile is {x!r}, but scipy.integrate.quad of the density up to it "
+            f"gives {mass!r}")
 
 
 def test_draws_follow_the_density():
     # Kolmogorov-Smirnov against the neutral Beta (closed form).
     rng = np.random.default_rng(5)
     x = drift.sample_stationary(rng, np.full(5000, 50.0), 1e-3, 0.0, 0.5, 1e-3)
-    assert stats.kstest(x, stats.beta(0.2, 0.2).cdf).pvalue > 0.001
+    # 4Ne·mu = 4Ne·nu = 0.2; p > 0.001 fails a correct sampler once in 1000 seeds
+    pvalue = stats.kstest(x, stats.beta(0.2, 0.2).cdf).pvalue
+    assert pvalue > 0.001, f"5000 neutral draws vs Beta(0.2, 0.2): KS p-value {pvalue:.3g}"
 
 
 @pytest.mark.parametrize("kind", ["genotype-count", "allele-count"])
@@ -55,4 +60,5 @@ def test_binomial_fast_path_equals_the_general_integral(kind):
     fast = constant + drift.log_binomial_probability(k, n, *rates)
     general = drift.log_expectation(lambda x: obs.log_likelihood_given_frequency(x, params),
                                     *rates)
-    assert fast == pytest.approx(general, rel=1e-7)
+    assert fast == pytest.approx(general, rel=1e-7), (
+        f"{kind}: binomial fast path {fast} vs general quadrature {general}")

@@ -2,8 +2,7 @@
 
 from __future__ import annotations
 
-import subprocess
-import sys
+from conftest import run_python
 
 CODE = """
 import sys
@@ -17,10 +16,12 @@ print(scipy.stats.norm.cdf(0.0))
 
 
 def test_emcee_without_scipy_stats_then_scipy_stats_as_usual():
-    done = subprocess.run([sys.executable, "-c", CODE], capture_output=True, text=True,
-                          timeout=120)
-    assert done.returncode == 0, done.stderr
-    assert float(done.stdout) == 0.5  # standard normal CDF at 0 (closed form)
+    """In a fresh interpreter (so nothing was imported before): emcee loads, scipy.stats
+    stays out of sys.modules, and importing scipy.stats afterwards still works."""
+    done = run_python(CODE, timeout=120)
+    assert done.returncode == 0, f"the import-order check failed in the child; {done}"
+    # standard normal CDF at 0 is 1/2 (closed form): scipy.stats works after the loader
+    assert float(done.stdout) == 0.5, f"scipy.stats.norm.cdf(0) printed {done.stdout!r}"
 
 
 def test_loaded_emcee_is_the_module_a_plain_import_gives():
@@ -29,4 +30,4 @@ def test_loaded_emcee_is_the_module_a_plain_import_gives():
     emcee = load_emcee()
     import emcee as plain
 
-    assert emcee is plain
+    assert emcee is plain, "load_emcee must return the same module object as 'import emcee'"

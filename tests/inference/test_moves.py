@@ -31,20 +31,24 @@ def test_differential_evolution_pairs_are_uniform_over_distinct_ordered_pairs():
     d0, d1 = np.rint(q[..., 0] / gamma), np.rint(q[..., 1] / gamma)
     i = np.rint((d0 + d1 / d0) / 2).astype(int)  # i - j = d0, i + j = (i² - j²)/(i - j)
     j = i - d0.astype(int)
-    assert np.all(i != j)
+    assert np.all(i != j), "a walker was paired with itself (ter Braak 2006 needs i != j)"
     counts = np.bincount((i * k + j).ravel(), minlength=k * k).reshape(k, k)
-    assert np.all(np.diag(counts) == 0)
+    assert np.all(np.diag(counts) == 0), f"pairs (i, i) were drawn: {np.diag(counts)}"
     off_diagonal = counts[~np.eye(k, dtype=bool)]
-    assert stats.chisquare(off_diagonal).pvalue > 1e-3
-    assert np.all(factors == 0)  # symmetric proposal
+    pvalue = stats.chisquare(off_diagonal).pvalue
+    assert pvalue > 1e-3, (
+        f"ordered pairs are not uniform over the {k * (k - 1)} distinct pairs: chi-square "
+        f"p = {pvalue:.3g}; counts\n{counts}")
+    assert np.all(factors == 0), "differential evolution is symmetric: log factors must be 0"
 
 
 def test_differential_evolution_uses_only_the_walkers_of_its_own_block():
     move = GroupedDifferentialEvolution(2, _unused, sigma=0.0)
     other = np.stack([np.zeros((6, 1)), np.arange(6.0)[:, None] * 1e3])
     q, _ = move._proposal(np.zeros((2, 50, 1)), other, np.random.RandomState(1))
-    assert np.all(q[0] == 0)  # block 0's other half all sit at 0: no difference to add
-    assert np.all(q[1] != 0)
+    # block 0's other half all sit at 0: a proposal from its own block adds no difference
+    assert np.all(q[0] == 0), "block 0 moved: it used walkers of block 1"
+    assert np.all(q[1] != 0), "block 1 did not move: it used walkers of block 0"
 
 
 def test_stretch_factor_follows_goodman_weare():
@@ -54,11 +58,14 @@ def test_stretch_factor_follows_goodman_weare():
     moving = np.ones((groups, m, ndim))
     q, log_factor = move._proposal(moving, other, np.random.RandomState(3))
     z = q[..., 0]
-    assert np.allclose(q, z[..., None])
-    assert np.allclose(log_factor, (ndim - 1) * np.log(z))
+    # from 1 towards 0: the proposal is z·1, the same z in every coordinate
+    assert np.allclose(q, z[..., None]), "the stretch must scale every coordinate by one z"
+    assert np.allclose(log_factor, (ndim - 1) * np.log(z)), (
+        "the log acceptance factor must be (ndim - 1) log z (Goodman & Weare 2010)")
 
     def cdf(x):
         return (np.sqrt(x) - np.sqrt(1 / a)) / (np.sqrt(a) - np.sqrt(1 / a))
 
-    assert z.min() >= 1 / a and z.max() <= a
-    assert stats.kstest(z.ravel(), cdf).pvalue > 1e-3
+    assert z.min() >= 1 / a and z.max() <= a, f"z outside [1/a, a]: {z.min()}..{z.max()}"
+    pvalue = stats.kstest(z.ravel(), cdf).pvalue
+    assert pvalue > 1e-3, f"z does not follow g(z) ~ 1/sqrt(z) on [1/a, a]: KS p = {pvalue:.3g}"

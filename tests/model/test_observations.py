@@ -18,14 +18,11 @@ import pytest
 from scipy import stats
 
 from infer.errors import InputError
-from infer.model.observations.kinds import (
-    KINDS,
-    AlleleCount,
-    Estimate,
-    Fertility,
-    parse_observation,
-)
-from infer.model.balance_state import State
+from infer.model.balance_state import BalanceState
+from infer.model.observations.fertility import Fertility
+from infer.model.observations.frequency import AlleleCount
+from infer.model.observations.kinds import KINDS, parse_observation
+from infer.model.observations.published import Estimate
 
 ROWS = 4
 
@@ -50,13 +47,13 @@ Q = np.array([2e-3, 1e-2, 0.05, 0.3])
 
 def autosomal_state(q=Q, exists=None, **overrides):
     exists = np.ones(ROWS, bool) if exists is None else exists
-    return State(params(**overrides), "autosomal", np.asarray(q, float), None, None, exists)
+    return BalanceState(params(**overrides), "autosomal", np.asarray(q, float), None, None, exists)
 
 
 def x_state(q_male=Q, q_female=Q * 0.7, exists=None):
     exists = np.ones(ROWS, bool) if exists is None else exists
     q_male, q_female = np.asarray(q_male), np.asarray(q_female)
-    return State(params(), "x-linked", (2 * q_female + q_male) / 3, q_male, q_female, exists)
+    return BalanceState(params(), "x-linked", (2 * q_female + q_male) / 3, q_male, q_female, exists)
 
 
 def obs(table, inheritance="autosomal", index=1):
@@ -125,7 +122,7 @@ def test_genotype_count_is_multinomial_with_F():
 
 def test_genotype_count_x_linked_is_daughters():
     """Daughters: egg X at x = q_male, sperm X at y = 2 q_female − x; AA (1−x)(1−y), Aa
-    x(1−y)+y(1−x), aa xy (derived from DESIGN.md section 2; F = 0 in these rows)."""
+    x(1−y)+y(1−x), aa xy (derived from docs/model.md; F = 0 in these rows)."""
     state = x_state()
     state.params["F"] = np.zeros(ROWS)
     x = state.q_male
@@ -192,7 +189,7 @@ def test_sporadic_maximum_is_the_direct_estimate():
     p = {k: np.full(mu.size, v) for k, v in
          {"s": 1.0, "h": 1.0, "F": 0.0, "nu": 0.0, "Ne": np.inf, "alpha": 1.0}.items()}
     p["mu"] = mu
-    ll = o.log_likelihood(State.without_frequency(p, "autosomal"))
+    ll = o.log_likelihood(BalanceState.without_frequency(p, "autosomal"))
     assert mu[np.argmax(ll)] == pytest.approx(8 / (2 * 94_075), rel=1e-4)
     assert 8 / (2 * 94_075) == pytest.approx(4.25e-5, rel=2e-3)
 
@@ -201,9 +198,9 @@ def test_sporadic_maximum_is_the_direct_estimate():
 def test_sporadic_x_linked_uses_mu_female(alpha):
     """Sons receive only their mother's X: new cases per male birth are mu_female, with
     mu = (2 mu_female + mu_male)/3 and mu_male = alpha·mu_female, so mu_female =
-    3mu/(2+alpha) (Haldane 1935; DESIGN.md section 2)."""
+    3mu/(2+alpha) (Haldane 1935; docs/model.md, 'X-linked equilibrium')."""
     p = params(alpha=alpha)
-    state = State.without_frequency(p, "x-linked")
+    state = BalanceState.without_frequency(p, "x-linked")
     o = obs({"kind": "sporadic", "cases": 3, "births": 40_000, "mode": "x-linked-male"},
             "x-linked")
     mu_female = 3 * p["mu"] / (2 + alpha)
@@ -246,14 +243,14 @@ def test_fertility_conditional_equals_profiled_two_poisson_joint():
     p = {k: np.full(w.size, v[0]) for k, v in p.items()}
     p["h"], p["s"] = np.ones(w.size), 1 - w  # dominant: w = 1 - h s
     o = obs({**FERTILITY, "mode": "dominant"})
-    conditional = o.log_likelihood(State.without_frequency(p, "autosomal"))
+    conditional = o.log_likelihood(BalanceState.without_frequency(p, "autosomal"))
     lam = T / (A * w + R)
     profile = stats.poisson.logpmf(X, A * w * lam) + stats.poisson.logpmf(Y, R * lam)
     np.testing.assert_allclose(profile - conditional, stats.poisson.logpmf(T, T), rtol=1e-10)
 
 
 def test_fertility_x_linked_male_and_zero_children():
-    state = State.without_frequency(params(), "x-linked")
+    state = BalanceState.without_frequency(params(), "x-linked")
     o = obs({**FERTILITY, "mode": "x-linked-male"}, "x-linked")
     w = 1 - state.params["s"]
     np.testing.assert_allclose(
@@ -297,7 +294,7 @@ def test_given_frequency_matches_the_state_likelihood(table):
     got = o.log_likelihood_given_frequency(x, p)
     assert got.shape == (ROWS, 3)
     for j in range(3):
-        state = State.at_frequency(p, x[:, j])
+        state = BalanceState.at_frequency(p, x[:, j])
         np.testing.assert_allclose(got[:, j], o.log_likelihood(state), rtol=1e-12)
 
 
@@ -327,7 +324,7 @@ def test_simulated_draws_have_the_expected_mean(inheritance, table):
     o = obs(table, inheritance)
     base = x_state() if inheritance == "x-linked" else autosomal_state()
     reps = 20_000
-    big = State(
+    big = BalanceState(
         {k: np.repeat(v, reps) for k, v in base.params.items()},
         inheritance,
         np.repeat(base.q, reps),
@@ -345,8 +342,8 @@ def test_simulated_draws_have_the_expected_mean(inheritance, table):
 
 def test_estimate_draws_are_log_normal_around_the_parameter():
     o = obs({"kind": "estimate", "parameter": "s", "median": 0.3, "lower": 0.2, "upper": 0.45})
-    state = State.without_frequency(params(s=0.25), "autosomal")
-    state = State({k: np.repeat(v, 5000) for k, v in state.params.items()}, "autosomal",
+    state = BalanceState.without_frequency(params(s=0.25), "autosomal")
+    state = BalanceState({k: np.repeat(v, 5000) for k, v in state.params.items()}, "autosomal",
                   np.full(ROWS * 5000, np.nan), None, None, np.ones(ROWS * 5000, bool))
     logs = np.log(o.simulate(state, np.random.default_rng(1)))
     assert abs(logs.mean() - math.log(0.25)) < 5 * o.sigma / math.sqrt(logs.size)

@@ -1,6 +1,6 @@
 """Interruption and output paths of ``qhat estimate`` (issue 7, item 4).
 
-DESIGN.md section 4: reports are written to a temporary folder and renamed into place, so
+docs/command-line.md: reports are written to a temporary folder and renamed into place, so
 an interrupted run leaves nothing half-written; an existing folder is replaced only with
 ``--force``; the same seed gives the same summary.json. These tests interrupt real runs
 (SIGINT as from Ctrl-C at a terminal, SIGTERM as from a batch scheduler), interrupt the
@@ -22,6 +22,7 @@ import time
 from pathlib import Path
 
 import pytest
+from conftest import call_qhat, qhat_command, run_qhat
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -33,6 +34,9 @@ from infer.reporting import folder as folder_module
 from infer.reporting.folder import atomic_folder, safe_name, terminate_as_interrupt
 
 INTERRUPTED = "qhat: interrupted; nothing was written"
+#: 128 + SIGINT (2): the shell's status for a run ended by Ctrl-C (POSIX shell convention,
+#: common practice), which the CLI returns for SIGINT and SIGTERM alike
+EXIT_INTERRUPTED = 130
 
 #: a few seconds of fitting: one free parameter, a small sampler, a step cap
 FAST = """\
@@ -79,9 +83,8 @@ def tree(root: Path) -> list[str]:
 
 
 def start(args, cwd, stderr, env=None):
-    return subprocess.Popen([sys.executable, "-m", "infer", *map(str, args)], cwd=cwd,
-                            stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, stderr=stderr,
-                            env=env)
+    return subprocess.Popen(qhat_command(*args), cwd=cwd, stdin=subprocess.DEVNULL,
+                            stdout=subprocess.PIPE, stderr=stderr, env=env)
 
 
 def read_until(fd: int, marker: bytes, process, timeout: float = 300.0) -> bytes:
@@ -128,7 +131,7 @@ def test_signal_at_a_terminal_while_sampling_leaves_nothing(tmp_path, signum):
         process = start(["estimate", "study.toml", "--out", "report"], tmp_path, slave)
         os.close(slave)
         seen = read_until(master, b"qhat: sampling", process)
-        assert b"qhat: sampling" in seen, seen
+        assert b"qhat: sampling" in seen, f"no progress line on the terminal; saw {seen!r}"
         assert process.poll() is None, "the run ended before it could be interrupted"
         process.send_signal(signum)
         process.wait(timeout=120)
@@ -138,24 +141,28 @@ def test_signal_at_a_terminal_while_sampling_leaves_nothing(tmp_path, signum):
         if process.poll() is None:
             process.kill()
     text = seen.decode("utf-8", "replace").replace("\r\n", "\n")
-    assert process.returncode == 130, text  # 128 + SIGINT, the CLI's interrupted status
-    assert "Traceback" not in text
-    assert text.endswith(INTERRUPTED + "\n"), text
+    assert process.returncode == EXIT_INTERRUPTED, (
+        f"an interrupted run must exit {EXIT_INTERRUPTED}; got {process.returncode}:\n{text}")
+    assert "Traceback" not in text, f"an interrupt must not show a traceback:\n{text}"
+    assert text.endswith(INTERRUPTED + "\n"), f"the terminal must end with {INTERRUPTED!r}:\n{text}"
     # Progress is redrawn in place with \r; apart from it there is the one message line.
     # (It currently follows the last progress text on the same line: see
     # test_interrupted_message_starts_its_own_line_on_a_terminal.)
-    assert text.count(INTERRUPTED) == 1
+    assert text.count(INTERRUPTED) == 1, f"the interrupted message must appear once:\n{text}"
     shown = [line for line in text.replace("\r", "\n").split("\n") if line.strip()]
     for line in shown:
-        assert line == INTERRUPTED or line.startswith("qhat: sampling"), text
-    assert process.stdout.read() == b""
-    assert tree(tmp_path) == ["study.toml"]
+        assert line == INTERRUPTED or line.startswith("qhat: sampling"), (
+            f"only progress and the interrupted message may be shown; got {line!r}")
+    stdout = process.stdout.read()
+    assert stdout == b"", f"an interrupted run must print nothing on stdout: {stdout!r}"
+    left = tree(tmp_path)
+    assert left == ["study.toml"], f"an interrupted run left files behind: {left}"
 
 
 @pytest.mark.parametrize("signum", [signal.SIGINT, signal.SIGTERM], ids=["SIGINT", "SIGTERM"])
 def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
     """stderr is a pipe (a scheduler's log): no progress is shown, so the run is caught
-    after the default report parent ``reports/`` appears (DESIGN.md section 4: the study
+    after the default report parent ``reports/`` appears (docs/command-line.md: the study
     has been read; sampling is starting) plus a second. stderr must be exactly the one
     interrupted line; ``reports/`` holds nothing, not even a hidden temporary folder."""
     (tmp_path / "study.toml").write_text(LONG)
@@ -163,7 +170,8 @@ def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
     try:
         deadline = time.monotonic() + 300
         while not (tmp_path / "reports").exists() and time.monotonic() < deadline:
-            assert process.poll() is None, process.stderr.read()
+            assert process.poll() is None, (
+                f"the run ended before reports/ appeared: {process.stderr.read()!r}")
             time.sleep(0.05)
         time.sleep(1.0)
         assert process.poll() is None, "the run ended before it could be interrupted"
@@ -172,10 +180,14 @@ def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
     finally:
         if process.poll() is None:
             process.kill()
-    assert process.returncode == 130, stderr
-    assert stderr.decode() == INTERRUPTED + "\n"
-    assert stdout == b""
-    assert tree(tmp_path) == ["reports", "study.toml"]
+    assert process.returncode == EXIT_INTERRUPTED, (
+        f"an interrupted run must exit {EXIT_INTERRUPTED}; got {process.returncode}: {stderr!r}")
+    assert stderr.decode() == INTERRUPTED + "\n", (
+        f"stderr must be exactly the interrupted line; got {stderr.decode()!r}")
+    assert stdout == b"", f"an interrupted run must print nothing on stdout: {stdout!r}"
+    left = tree(tmp_path)
+    assert left == ["reports", "study.toml"], (
+        f"reports/ must be empty after the interrupt (no hidden temporary); found {left}")
 
 
 # ---------------------------------------------------------------- the writing phase
@@ -185,10 +197,13 @@ def test_interrupt_inside_atomic_folder_removes_the_temporary_folder(tmp_path):
     out = tmp_path / "report"
     with pytest.raises(KeyboardInterrupt):
         with atomic_folder(out) as temporary:
-            assert temporary.parent == tmp_path and temporary.name.startswith(".report.")
+            assert temporary.parent == tmp_path and temporary.name.startswith(".report."), (
+                f"the temporary folder must be a hidden sibling '.report.*' of --out; got "
+                f"{temporary}")
             (temporary / "summary.json").write_text("{}")
             raise KeyboardInterrupt
-    assert tree(tmp_path) == []
+    left = tree(tmp_path)
+    assert left == [], f"an interrupt inside atomic_folder left {left}"
 
 
 def test_interrupt_while_replacing_with_force_leaves_the_old_report_untouched(tmp_path):
@@ -199,8 +214,10 @@ def test_interrupt_while_replacing_with_force_leaves_the_old_report_untouched(tm
         with atomic_folder(out, force=True) as temporary:
             (temporary / "summary.json").write_text('{"new": true}\n')
             raise KeyboardInterrupt
-    assert tree(tmp_path) == ["report", "report/summary.json"]
-    assert (out / "summary.json").read_bytes() == b'{"old": true}\n'
+    left = tree(tmp_path)
+    assert left == ["report", "report/summary.json"], f"after the interrupt the tree is {left}"
+    old = (out / "summary.json").read_bytes()
+    assert old == b'{"old": true}\n', f"the earlier report was changed to {old!r}"
 
 
 def test_sigterm_inside_the_block_becomes_an_interrupt_and_cleans_up(tmp_path):
@@ -211,11 +228,16 @@ def test_sigterm_inside_the_block_becomes_an_interrupt_and_cleans_up(tmp_path):
     with pytest.raises(KeyboardInterrupt):
         with terminate_as_interrupt(), atomic_folder(out) as temporary:
             (temporary / "summary.json").write_text("{}")
-            assert signal.getsignal(signal.SIGTERM) not in (signal.SIG_DFL, signal.SIG_IGN)
+            handler = signal.getsignal(signal.SIGTERM)
+            # never send SIGTERM without a handler: it would end the test run itself
+            assert handler not in (signal.SIG_DFL, signal.SIG_IGN), (
+                f"terminate_as_interrupt installed no SIGTERM handler ({handler})")
             os.kill(os.getpid(), signal.SIGTERM)
             time.sleep(5)  # the handler raises before this ends
-    assert signal.getsignal(signal.SIGTERM) == before
-    assert tree(tmp_path) == []
+    after = signal.getsignal(signal.SIGTERM)
+    assert after == before, f"the SIGTERM handler was not restored: {after} != {before}"
+    left = tree(tmp_path)
+    assert left == [], f"SIGTERM inside atomic_folder left {left}"
 
 
 def test_interrupt_between_the_two_renames_of_a_forced_replacement(tmp_path, monkeypatch):
@@ -237,9 +259,12 @@ def test_interrupt_between_the_two_renames_of_a_forced_replacement(tmp_path, mon
             (temporary / "summary.json").write_text('{"new": true}\n')
     monkeypatch.undo()
     # the third rename puts the old report back where it was
-    assert len(calls) == 3 and calls[2][1] == out
-    assert tree(tmp_path) == ["report", "report/summary.json"]
-    assert (out / "summary.json").read_bytes() == b'{"old": true}\n'
+    assert len(calls) == 3 and calls[2][1] == out, (
+        f"expected move-aside, (interrupted) move-in, move-back; renames were {calls}")
+    left = tree(tmp_path)
+    assert left == ["report", "report/summary.json"], f"after the interrupt the tree is {left}"
+    old = (out / "summary.json").read_bytes()
+    assert old == b'{"old": true}\n', f"the earlier report was changed to {old!r}"
 
 
 @pytest.mark.parametrize("name", [".", ".."])
@@ -255,7 +280,7 @@ def test_out_naming_the_current_or_parent_folder_is_refused(tmp_path, monkeypatc
     finally:
         monkeypatch.chdir(tmp_path)
         leftovers = tree(tmp_path)
-    assert leftovers == ["a", "a/b"]
+    assert leftovers == ["a", "a/b"], f"--out {name} --force created or removed {leftovers}"
 
 
 def write_study(path: Path, title: str = "Fast test island") -> Path:
@@ -272,7 +297,8 @@ def plots_that_get_interrupted(how: str):
         if how == "SIGTERM":
             handler = signal.getsignal(signal.SIGTERM)
             # never send SIGTERM without a handler: it would end the test run itself
-            assert handler not in (signal.SIG_DFL, signal.SIG_IGN, None)
+            assert handler not in (signal.SIG_DFL, signal.SIG_IGN, None), (
+                f"the command installed no SIGTERM handler while writing ({handler})")
             os.kill(os.getpid(), signal.SIGTERM)
             time.sleep(5)
         raise KeyboardInterrupt
@@ -287,7 +313,8 @@ def plot_process_that_gets_interrupted(how: str):
     real_write = infer.reporting.plot_process.PlotProcess.write
 
     def write(self, result, folder):
-        assert real_write(self, result, folder) is not None  # the child really drew them
+        drawn = real_write(self, result, folder)
+        assert drawn is not None, f"the plot process failed to draw: {self.failure}"
         return interrupt(result, folder)
 
     return write
@@ -314,17 +341,21 @@ def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how, 
     for name in ("summary.json", "report.md", "marginals.png"):
         (tmp_path / "kept" / name).write_bytes(f"earlier {name}\n".encode())
     kept = {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()}
-    monkeypatch.setattr(infer.reporting.plots.figures, "write_plots", plots_that_get_interrupted(how))
-    status = cli.main(["estimate", str(study), "--out", str(tmp_path / "new"), "--quiet"])
-    assert status == 130
-    assert capsys.readouterr().err == INTERRUPTED + "\n"
-    status = cli.main(["estimate", str(study), "--out", str(tmp_path / "kept"), "--force",
-                       "--quiet"])
-    assert status == 130
-    assert capsys.readouterr().err == INTERRUPTED + "\n"
-    assert sorted(p for p in tree(tmp_path) if "/" not in p) == ["kept", "study.toml"]
-    assert {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()} == kept
-    assert set(child_processes()) <= children_before
+    monkeypatch.setattr(infer.reporting.plots.figures, "write_plots",
+                        plots_that_get_interrupted(how))
+    for out, extra in (("new", []), ("kept", ["--force"])):
+        status, stdout, err = call_qhat(
+            ["estimate", study, "--out", tmp_path / out, *extra, "--quiet"], capsys)
+        assert status == EXIT_INTERRUPTED, (
+            f"--out {out} {extra}: an interrupt must exit {EXIT_INTERRUPTED}; got {status}: "
+            f"{err}")
+        assert err == INTERRUPTED + "\n", f"--out {out}: stderr must be {INTERRUPTED!r}; {err!r}"
+    top = sorted(p for p in tree(tmp_path) if "/" not in p)
+    assert top == ["kept", "study.toml"], f"a new --out was created, or debris left: {top}"
+    now = {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()}
+    assert now == kept, f"the earlier report replaced with --force changed: {now}"
+    running = set(child_processes()) - children_before
+    assert not running, f"plot processes left running: {sorted(running)}"
 
 
 def child_processes() -> list[int]:
@@ -357,9 +388,11 @@ def test_interrupted_message_starts_its_own_line_on_a_terminal(tmp_path, monkeyp
     terminal = FakeTerminal()
     monkeypatch.setattr(sys, "stderr", terminal)
     study = write_study(tmp_path / "study.toml")
-    assert cli.main(["estimate", str(study), "--out", str(tmp_path / "report")]) == 130
+    status = cli.main(["estimate", str(study), "--out", str(tmp_path / "report")])
+    assert status == EXIT_INTERRUPTED, f"an interrupt must exit {EXIT_INTERRUPTED}; got {status}"
     lines = terminal.getvalue().replace("\r", "\n").splitlines()
-    assert INTERRUPTED in lines, terminal.getvalue()
+    assert INTERRUPTED in lines, (
+        f"after a progress line the message must start its own line: {terminal.getvalue()!r}")
 
 
 # ---------------------------------------------------------------- same seed, same bytes; paths
@@ -375,24 +408,24 @@ def two_runs(tmp_path_factory):
         work = root / name / "deep" / "work"  # room for "../../x" to land, were it used
         work.mkdir(parents=True)
         write_study(work / "study.toml", title="../../x")
-        env = {**os.environ, "PYTHONHASHSEED": hash_seed}
-        done = subprocess.run([sys.executable, "-m", "infer", "estimate", "study.toml",
-                               *extra, "--quiet"], cwd=work, env=env, capture_output=True,
-                              timeout=600)
-        assert done.returncode == 0, done.stderr.decode()
+        done = run_qhat("estimate", "study.toml", *extra, "--quiet", cwd=work,
+                        env={"PYTHONHASHSEED": hash_seed})
+        assert done.returncode == 0, f"run {name} (PYTHONHASHSEED={hash_seed}) failed; {done}"
         runs[name] = work
     return root, runs
 
 
 @pytest.mark.slow  # two fresh fits with plots: > 10 s on 2 loaded cores
 def test_same_seed_gives_byte_identical_summary(two_runs):
-    """DESIGN.md section 4/5: the summary depends on the study and the seed alone (wall
+    """docs/reports.md: the summary depends on the study and the seed alone (wall
     times go to timing.json), whatever the process, hash seed or output folder."""
     _, runs = two_runs
     first = (runs["a"] / "report" / "summary.json").read_bytes()
     second = (runs["b"] / "reports" / "study" / "summary.json").read_bytes()
-    assert first == second
-    assert b'"title": "../../x"' in first
+    assert first == second, (
+        "the same study and seed gave different summary.json bytes in two processes with "
+        "different hash seeds and output folders")
+    assert b'"title": "../../x"' in first, "summary.json must keep the title as written"
 
 
 @pytest.mark.slow  # shares the two runs above
@@ -407,9 +440,11 @@ def test_title_does_not_choose_where_files_go(two_runs):
                    if not (f.startswith(f"deep/work/{report}/") or f in
                            {"deep", "deep/work", "deep/work/study.toml", f"deep/work/{report}",
                             "deep/work/reports"})]
-        assert outside == [], outside
-        assert all(f"deep/work/{report}/{n}" in files for n in names)
-    assert sorted(p.name for p in root.iterdir()) == ["a", "b"]
+        assert outside == [], f"run {name} wrote outside {report}/: {outside}"
+        missing = [n for n in names if f"deep/work/{report}/{n}" not in files]
+        assert not missing, f"run {name}: {report}/ lacks {missing}"
+    top = sorted(p.name for p in root.iterdir())
+    assert top == ["a", "b"], f"something was written beside the two work folders: {top}"
 
 
 def test_absolute_title_and_odd_study_names_stay_under_reports(tmp_path, monkeypatch, capsys):
@@ -418,14 +453,15 @@ def test_absolute_title_and_odd_study_names_stay_under_reports(tmp_path, monkeyp
     before = passwd.stat().st_mtime_ns if passwd.exists() else None
     monkeypatch.chdir(tmp_path)
     write_study(tmp_path / "..toml", title="/etc/passwd")
-    assert cli.main(["estimate", "..toml", "--quiet"]) == 0
-    capsys.readouterr()
+    status, _, err = call_qhat(["estimate", "..toml", "--quiet"], capsys)
+    assert status == 0, f"a study named '..toml' titled '/etc/passwd' must fit; {err}"
     files = tree(tmp_path)
-    assert all(f in ("..toml", "reports", "reports/study") or f.startswith("reports/study/")
-               for f in files), files
-    assert "reports/study/summary.json" in files
+    stray = [f for f in files
+             if not (f in ("..toml", "reports", "reports/study") or f.startswith("reports/study/"))]
+    assert not stray, f"files written outside reports/study/: {stray}"
+    assert "reports/study/summary.json" in files, f"no reports/study/summary.json in {files}"
     if before is not None:
-        assert passwd.stat().st_mtime_ns == before
+        assert passwd.stat().st_mtime_ns == before, "/etc/passwd was modified"
 
 
 @settings(max_examples=200, deadline=None)
@@ -434,20 +470,30 @@ def test_default_folder_is_always_one_plain_name_under_reports(stem):
     """default_out(any path) is reports/<name> with a name that is not hidden, not '.' or
     '..', has no separator, and at most 80 characters (safe_name's contract)."""
     out = default_out(stem + ".toml")
-    assert out.parent == Path("reports")
+    assert out.parent == Path("reports"), f"{stem!r}.toml -> {out}: not directly in reports/"
     name = out.name
-    assert name and name not in (".", "..") and not name.startswith((".", "-"))
-    assert "/" not in name and "\\" not in name and "\x00" not in name and len(name) <= 80
-    assert all(c.isalnum() or c in "-_" for c in name)
-    assert safe_name(stem) == safe_name(safe_name(stem))  # idempotent
+    assert name and name not in (".", "..") and not name.startswith((".", "-")), (
+        f"{stem!r}.toml -> folder name {name!r}: empty, '.', '..', hidden or option-like")
+    assert "/" not in name and "\\" not in name and "\x00" not in name and len(name) <= 80, (
+        f"{stem!r}.toml -> folder name {name!r}: a separator, NUL or over 80 characters")
+    assert all(c.isalnum() or c in "-_" for c in name), (
+        f"{stem!r}.toml -> folder name {name!r}: only letters, digits, '-' and '_' allowed")
+    twice = safe_name(safe_name(stem))
+    assert safe_name(stem) == twice, f"safe_name is not idempotent on {stem!r}: -> {twice!r}"
 
 
 def test_title_with_dollar_signs_is_plain_text(tmp_path, monkeypatch, capsys):
-    """A title is free text (DESIGN.md section 3): "$x^$" is written, not typeset."""
+    """A title is free text (docs/files.md, 'Study files'): "$x^$" is written, not typeset."""
     monkeypatch.chdir(tmp_path)
     write_study(tmp_path / "study.toml", title="Cost $x^$ per test")
-    assert cli.main(["estimate", "study.toml", "--out", "report", "--quiet"]) == 0
-    assert "Cost $x^$ per test" in (tmp_path / "report" / "report.md").read_text()
+    status, _, err = call_qhat(["estimate", "study.toml", "--out", "report", "--quiet"], capsys)
+    assert status == 0, f"a title with dollar signs must fit; {err}"
+    text = (tmp_path / "report" / "report.md").read_text()
+    assert text.startswith("# Cost $x^$ per test\n"), (
+        f"report.md must open with the title as written; starts {text[:60]!r}")
+    summary = json.loads((tmp_path / "report" / "summary.json").read_text())
+    assert summary["title"] == "Cost $x^$ per test", f"summary.json title {summary['title']!r}"
     # the plot process drew the titles itself (a crash there would fall back silently)
     timing = json.loads((tmp_path / "report" / "timing.json").read_text())
-    assert timing["plots_drawn_by"] == "plot process"
+    assert timing["plots_drawn_by"] == "plot process", (
+        f"the plot process must draw a '$' title without failing; timing.json says {timing}")

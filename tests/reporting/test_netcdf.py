@@ -12,11 +12,12 @@ import tomllib
 
 import numpy as np
 import pytest
+from conftest import run_python
 
 from infer.estimate.pipeline import estimate
-from infer.reporting.netcdf import to_datatree, write_netcdf
-from infer.inference.sampling import SamplerSettings
 from infer.files.study import parse_study
+from infer.inference.sampling import SamplerSettings
+from infer.reporting.netcdf import to_datatree, write_netcdf
 
 xr = pytest.importorskip("xarray")
 
@@ -57,26 +58,32 @@ def test_every_group_equals_the_arviz_datatree(written):
     result, path = written
     reference = to_datatree(result, result.log_prob)
     ours = xr.open_datatree(path, engine="h5netcdf")
-    assert set(ours.children) == set(reference.children) == {
-        "posterior", "prior", "log_likelihood", "posterior_predictive", "observed_data",
-        "sample_stats"}
+    groups = {"posterior", "prior", "log_likelihood", "posterior_predictive", "observed_data",
+              "sample_stats"}
+    assert set(ours.children) == set(reference.children) == groups, (
+        f"groups: posterior.nc {sorted(ours.children)}, arviz_base tree "
+        f"{sorted(reference.children)}, expected {sorted(groups)}")
     for group in reference.children:
         # values, dims and coordinates; attributes differ only in creation time and library
         xr.testing.assert_equal(ours[group].to_dataset(), reference[group].to_dataset())
-        assert list(ours[group].attrs["sample_dims"]) == list(
-            reference[group].attrs["sample_dims"])
+        dims = list(ours[group].attrs["sample_dims"])
+        expected = list(reference[group].attrs["sample_dims"])
+        assert dims == expected, f"group {group}: sample_dims {dims}, arviz_base {expected}"
     ours.close()
 
 
 def test_attributes_carry_labels_and_caution(written):
     result, path = written
     tree = xr.open_datatree(path, engine="h5netcdf")
-    # DESIGN.md section 6: every report carries the caution
-    assert tree.attrs["caution"] == (
-        "research estimate, not a clinical or genetic-counselling result")
-    assert tree.attrs["title"] == result.study.title
-    assert tree["observed_data"].attrs["obs1"] == "affected: births"
-    assert tree["observed_data"].attrs["obs2"] == "fertility: children of affected adults"
+    # docs/reports.md: every report carries the caution
+    caution = "research estimate, not a clinical or genetic-counselling result"
+    assert tree.attrs["caution"] == caution, f"caution attribute: {tree.attrs.get('caution')!r}"
+    assert tree.attrs["title"] == result.study.title, f"title attribute {tree.attrs['title']!r}"
+    # "<kind>: <label>" for each observation, labels as written in STUDY
+    labels = {key: tree["observed_data"].attrs.get(key) for key in ("obs1", "obs2")}
+    assert labels == {"obs1": "affected: births",
+                      "obs2": "fertility: children of affected adults"}, (
+        f"observed_data attributes must name kind and label of each observation: {labels}")
     tree.close()
 
 
@@ -87,15 +94,13 @@ def test_arviz_summary_is_the_same_from_either_tree(written):
     ours = az.summary(tree, var_names=["mu", "s"], ci_kind="eti", ci_prob=0.95)
     reference = az.summary(to_datatree(result, result.log_prob), var_names=["mu", "s"],
                            ci_kind="eti", ci_prob=0.95)
-    np.testing.assert_array_equal(ours.to_numpy(), reference.to_numpy())
+    np.testing.assert_array_equal(ours.to_numpy(), reference.to_numpy(),
+                                  err_msg="arviz summary of posterior.nc vs of the arviz_base tree")
     tree.close()
 
 
 def test_writing_does_not_import_arviz_or_xarray(tmp_path):
     """The estimate command must not pay for arviz/xarray imports (issue acceptance)."""
-    import subprocess
-    import sys
-
     code = (
         "import sys\n"
         "import tomllib\n"
@@ -108,6 +113,7 @@ def test_writing_does_not_import_arviz_or_xarray(tmp_path):
         f"write_netcdf(r, {str(tmp_path / 'p.nc')!r}, r.log_prob)\n"
         "print(sorted(m for m in ('arviz', 'arviz_base', 'xarray', 'dask') if m in sys.modules))\n"
     )
-    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
-                          check=True)
-    assert done.stdout.strip() == "[]"
+    done = run_python(code)
+    assert done.returncode == 0, f"the import check failed in the child; {done}"
+    assert done.stdout.strip() == "[]", (
+        f"writing posterior.nc imported {done.stdout.strip()}; it must use h5netcdf alone")

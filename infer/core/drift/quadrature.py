@@ -1,7 +1,7 @@
 """Log Z(A, B) = log ∫_0^1 x^(A-1)(1-x)^(B-1) exp(-c·S(x)) dx for arrays of rows.
 
-The quadrature behind :mod:`infer.core.drift.stationary` (its docstring gives the method): the analytic
-end pieces, the peak and range of the interior integrand in y = logit x, its
+The quadrature behind :mod:`infer.core.drift.stationary` (its docstring gives the
+method): the analytic end pieces, the peak and range of the interior integrand in y = logit x, its
 Gauss–Legendre panels, and their sum. Rows are flat arrays of (A, B, c, h); nothing here
 validates input.
 """

@@ -1,6 +1,6 @@
 r"""Wright's stationary density of a deleterious allele's frequency under drift.
 
-Diffusion approximation of the life cycle in DESIGN.md section 2 (autosomal, F = 0):
+Diffusion approximation of the life cycle (docs/model.md, 'Life cycle'; autosomal, F = 0):
 mean change :math:`M(x) = \mu(1-x) - \nu x - s x(1-x)(h + (1-2h)x)`, variance
 :math:`V(x) = x(1-x)/(2N_e)`. Wright's formula :math:`\phi \propto V^{-1}\exp(2\int M/V)`
 (Wright 1931, Genetics 16:97; 1937, PNAS 23:307) gives, with a = 4Ne·mu, b = 4Ne·nu,
@@ -68,6 +68,7 @@ from infer.core.drift.quadrature import (
     _nodes,
     _panels,
 )
+from infer.core.stats import log_choose
 from infer.errors import InputError
 
 __all__ = [
@@ -254,10 +255,6 @@ def _quantile_inside(layout, log_z, p, rows):
     return special.expit(y)
 
 
-def _log_choose(n, k):
-    return special.gammaln(n + 1) - special.gammaln(k + 1) - special.gammaln(n - k + 1)
-
-
 def _check_counts(k, n):
     k, n = np.asarray(k, dtype=float), np.asarray(n, dtype=float)
     if k.ndim == n.ndim == 0:  # the common case, one observation: plain float tests
@@ -305,7 +302,7 @@ def log_binomial_probability(k, n, Ne, mu, s, h, nu):
         np.concatenate((h, h)),
     )
     size = a.size
-    return (_log_choose(n, k) + log_z[:size] - log_z[size:]).reshape(shape)
+    return (log_choose(n, k) + log_z[:size] - log_z[size:]).reshape(shape)
 
 
 def probability_absent(sample_alleles, Ne, mu, s, h, nu):

@@ -1,17 +1,26 @@
-"""The base class of the observation kinds and the likelihood helpers they share.
+"""The observation protocol: the base class every kind implements, and shared helpers.
 
-:class:`Observation` validates a study-file table and defines the interface every kind
-implements (log-likelihood per row of a :class:`~infer.model.balance_state.State`, expected and
-simulated predictive statistic, description); :func:`log_binomial` and
-:func:`binomial_draw` are the exact binomial terms, :func:`parse_mode`,
-:func:`check_not_above` and :func:`at_least_one` the checks several kinds share.
-The kinds live in :mod:`infer.model.observations.frequency` and :mod:`infer.model.observations.rates`; the
-registry is :data:`infer.model.observations.kinds.KINDS`.
+:class:`Observation` validates a study-file table and declares what every kind gives
+the rest of qhat, so that nothing outside the kinds' modules looks at a kind's name:
+its log-likelihood per row of a :class:`~infer.model.balance_state.BalanceState` (and
+given the allele frequency, for the drift model), the expected, simulated and exactly
+tailed predictive statistic, new data of the study's shape for calibration, what it
+contributes to a balance plot's observed band
+(:class:`~infer.model.observations.share.FrequencyStatistic`), an
+assumption the report states, and a one-line description. :data:`PROTOCOL` lists the
+methods each kind defines itself (checked by tests/model/test_protocol.py).
+
+Helpers: :func:`binomial_draw` and :func:`x_linked_daughter_genotypes`;
+:func:`parse_mode`, :func:`check_not_above` and :func:`at_least_one` are the checks
+several kinds share. The kinds live in
+:mod:`~infer.model.observations.frequency`, :mod:`~infer.model.observations.sporadic`,
+:mod:`~infer.model.observations.fertility` and :mod:`~infer.model.observations.published`;
+the registry is :data:`infer.model.observations.kinds.KINDS`.
 """
 
 from __future__ import annotations
 
-import functools
+import math
 import re
 from dataclasses import dataclass
 from typing import ClassVar
@@ -19,12 +28,17 @@ from typing import ClassVar
 import numpy as np
 from scipy import special
 
+from infer.core.choices import AUTOSOMAL_MODES, MODES, X_LINKED_MODES
+from infer.core.stats import log_binomial
 from infer.errors import InputError
-from infer.model.balance_state import State
+from infer.model.balance_state import BalanceState
+from infer.model.observations.share import FrequencyStatistic
 from infer.validate import check_keys, choice, quote_value
 
 __all__ = [
     "Observation",
+    "PROTOCOL",
+    "FREQUENCY_PROTOCOL",
     "FREQUENCY_PARAMETERS",
     "log_binomial",
     "binomial_draw",
@@ -37,21 +51,20 @@ __all__ = [
 #: life-cycle parameters the equilibrium allele frequency depends on
 FREQUENCY_PARAMETERS = {"mu", "s", "h", "F", "nu"}
 
-
-@functools.lru_cache(maxsize=1024)
-def _log_choose(n: int, k: int) -> float:
-    """Log of C(n, k) (exact normalising constant, computed once per observation)."""
-    return float(special.gammaln(n + 1.0) - special.gammaln(k + 1.0)
-                 - special.gammaln(n - k + 1.0))
-
-
-def log_binomial(k, n, p):
-    """Log of C(n, k) p^k (1-p)^(n-k), vectorised over p; -inf where p is NaN or outside [0, 1]."""
-    p = np.asarray(p, dtype=float)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        value = _log_choose(n, k) + special.xlogy(k, p) + special.xlog1py(n - k, -p)
-        good = (p >= 0) & (p <= 1)  # False for NaN
-    return np.where(good & ~np.isnan(value), value, -np.inf)
+#: methods every kind defines itself (the base class only states their contract)
+PROTOCOL = (
+    "_parse",
+    "_log_likelihood",
+    "statistic",
+    "expected",
+    "simulate",
+    "_draw_table_fields",
+    "statistic_trials",
+    "frequency_statistic",
+    "describe",
+)
+#: methods a kind with ``depends_on_frequency = True`` defines as well (the drift model)
+FREQUENCY_PROTOCOL = ("_given_frequency",)
 
 
 def binomial_draw(rng, n, p):
@@ -84,12 +97,15 @@ def x_linked_daughter_genotypes(q_male, q_female, F=0.0):
 
 @dataclass
 class Observation:
-    """Base class of the observation kinds.
+    """Base class of the observation kinds: the protocol every kind implements.
 
-    Subclasses declare ``kind``, ``depends_on_frequency``, ``required``,
-    ``optional`` (names with defaults) and ``statistic_name``, and implement
-    ``_parse`` (validation), ``_probability`` or ``log_likelihood``, ``expected``,
-    ``simulate`` and ``describe``.
+    A kind is a dataclass that declares ``kind`` (its name in a study file),
+    ``depends_on_frequency``, ``statistic_name``, ``required`` and ``optional`` (its
+    table's fields, which are also its dataclass fields), optionally ``assumption``, and
+    defines every method in :data:`PROTOCOL` (and :data:`FREQUENCY_PROTOCOL` when it
+    depends on the allele frequency). The base class builds on those: validation
+    (:meth:`from_table`), the -inf convention of :meth:`log_likelihood`, the round trip
+    :meth:`as_table`, :meth:`simulate_table` and the exact :meth:`predictive_tails`.
     """
 
     kind: ClassVar[str]
@@ -97,6 +113,8 @@ class Observation:
     statistic_name: ClassVar[str]
     required: ClassVar[tuple[str, ...]]
     optional: ClassVar[tuple[str, ...]] = ()
+    #: a sentence an estimate report adds to its assumptions when the study has this kind
+    assumption: ClassVar[str | None] = None
 
     label: str
     inheritance: str
@@ -125,10 +143,11 @@ class Observation:
 
     @classmethod
     def _parse(cls, table: dict, field: str, inheritance: str) -> dict:
+        """Validated dataclass fields from the table (raise InputError naming the field)."""
         raise NotImplementedError
 
     # -- likelihood ---------------------------------------------------------
-    def log_likelihood(self, state: State) -> np.ndarray:
+    def log_likelihood(self, state: BalanceState) -> np.ndarray:
         """Log-probability of the data for each row of ``state``; shape ``(n,)``.
 
         Frequency kinds give -inf where the row has no stable equilibrium.
@@ -158,7 +177,12 @@ class Observation:
         column = {k: np.asarray(v, dtype=float)[..., None] for k, v in params.items()}
         return self._given_frequency(x, column)
 
+    def _log_likelihood(self, state: BalanceState) -> np.ndarray:
+        """Log-probability of the data per row (NaN and -inf become -inf)."""
+        raise NotImplementedError
+
     def _given_frequency(self, x, params):
+        """Log P(data | x), ``x`` of shape (n, m) and ``params`` as (n, 1) columns."""
         raise NotImplementedError
 
     def binomial_form(self) -> tuple[int, int, float] | None:
@@ -170,8 +194,85 @@ class Observation:
         """
         return None
 
+    # -- predictive statistic -----------------------------------------------
     def statistic(self) -> float:
         """The observed number compared in predictive checks (``statistic_name``)."""
+        raise NotImplementedError
+
+    def expected(self, state: BalanceState) -> np.ndarray:
+        """Expected value of the statistic for each row of ``state``; NaN where undefined."""
+        raise NotImplementedError
+
+    def simulate(self, state: BalanceState, rng: np.random.Generator) -> np.ndarray:
+        """One replicated statistic per row of ``state`` (posterior predictive draws)."""
+        raise NotImplementedError
+
+    def statistic_trials(self, state: BalanceState) -> int | None:
+        """Trials n when the statistic at every row is Binomial(n, expected / n), or None.
+
+        None when it has no binomial law at the rows of ``state`` (checks then use
+        :meth:`simulate`, unless :meth:`predictive_tails` is overridden with another
+        closed form).
+        """
+        raise NotImplementedError
+
+    def predictive_tails(self, state: BalanceState) -> tuple[float, float, str] | None:
+        """Exact tails of the observed statistic t, averaged over the rows of ``state``.
+
+        Returns
+        -------
+        tuple or None
+            ``(P(T <= t), P(T >= t), law)``, NaN tails when no row is finite; None when
+            the statistic has no closed form (callers simulate it).
+        """
+        n = self.statistic_trials(state)
+        if n is None:
+            return None
+        t = self.statistic()
+        expected = self.expected(state)
+        p = np.asarray(expected, dtype=float) / n if n else np.zeros_like(expected)
+        good = np.isfinite(p)
+        if not good.any():
+            return math.nan, math.nan, "binomial"
+        p = np.clip(p[good], 0.0, 1.0)
+        # bdtr(k, n, p) = P(T <= k), bdtrc(k, n, p) = P(T > k) (scipy.special)
+        upper = special.bdtrc(t - 1, n, p) if t >= 1 else np.ones_like(p)
+        return float(np.mean(special.bdtr(t, n, p))), float(np.mean(upper)), "binomial"
+
+    # -- calibration ----------------------------------------------------------
+    def simulate_table(self, state: BalanceState, rng: np.random.Generator) -> dict:
+        """New data of this observation's shape, drawn at the single row of ``state``.
+
+        The same totals, label and settings with new counts: the table a study file
+        would hold (``parse_observation`` reads it back). Simulation-based calibration
+        (:mod:`infer.inference.calibration`) draws its data sets with it; under the
+        drift model pass a state at a frequency drawn from Wright's density
+        (:meth:`~infer.model.balance_state.BalanceState.at_frequency`).
+
+        Raises
+        ------
+        ValueError
+            When ``state`` has more than one row.
+        """
+        if state.n != 1:
+            raise ValueError(f"simulate_table needs a state of one row, not {state.n}")
+        return {**self.as_table(), **self._draw_table_fields(state, rng)}
+
+    def _draw_table_fields(self, state: BalanceState, rng: np.random.Generator) -> dict:
+        """The table fields that change, drawn at the one row of ``state``."""
+        raise NotImplementedError
+
+    # -- reports --------------------------------------------------------------
+    def frequency_statistic(self) -> FrequencyStatistic | None:
+        """The observation as an observed share of a balance quantity, or None.
+
+        Kinds that measure the allele frequency (allele copies, affected births) return
+        one; kinds that inform mu or s directly return None.
+        """
+        raise NotImplementedError
+
+    def describe(self) -> str:
+        """One line for reports."""
         raise NotImplementedError
 
     def as_table(self) -> dict:
@@ -205,20 +306,16 @@ def at_least_one(value: int, field: str) -> None:
         raise InputError(f"{value} is not at least 1", field=field)
 
 
-_AUTOSOMAL_MODES = ("dominant", "recessive")
-_X_MODES = ("x-linked-male",)
-
-
-def parse_mode(table, field, inheritance, allowed=("dominant", "recessive", "x-linked-male")):
+def parse_mode(table, field, inheritance, allowed=MODES):
     """The ``mode`` of a table, checked against the study's inheritance."""
     mode = choice(table["mode"], allowed, f"{field}.mode")
-    if inheritance == "x-linked" and mode in _AUTOSOMAL_MODES:
+    if inheritance == "x-linked" and mode in AUTOSOMAL_MODES:
         raise InputError(
             f'{quote_value(mode)} needs inheritance = "autosomal"; an x-linked study uses '
             f'mode = "x-linked-male"',
             field=f"{field}.mode",
         )
-    if inheritance == "autosomal" and mode in _X_MODES:
+    if inheritance == "autosomal" and mode in X_LINKED_MODES:
         raise InputError(
             f'{quote_value(mode)} needs inheritance = "x-linked"', field=f"{field}.mode"
         )

@@ -17,6 +17,7 @@ import numpy as np
 from scipy import special
 
 from infer.core import balance
+from infer.core.stats import log_choose, log_multinomial_coefficient
 from infer.errors import InputError
 from infer.model.observations.base import (
     Observation,
@@ -27,6 +28,7 @@ from infer.model.observations.base import (
     parse_mode,
     x_linked_daughter_genotypes,
 )
+from infer.model.observations.share import FrequencyStatistic
 from infer.validate import choice, format_number, probability, quote_value, whole_count
 
 __all__ = ["AlleleCount", "GenotypeCount", "Affected"]
@@ -99,6 +101,19 @@ class AlleleCount(Observation):
         q = np.where(state.exists, self._frequency(state), np.nan)
         return binomial_draw(rng, self.sampled, q)
 
+    def statistic_trials(self, state):
+        """Binomial(sampled, q) at every row."""
+        return self.sampled
+
+    def _draw_table_fields(self, state, rng):
+        return {"observed": int(rng.binomial(self.sampled, self._frequency(state))[0])}
+
+    def frequency_statistic(self):
+        """The observed allele frequency, against q_hat (X-linked: the chosen q)."""
+        quantity = {"male": "q_male", "female": "q_female"}.get(self.sex, "q_hat")
+        return FrequencyStatistic(self.observed, self.sampled, quantity, 1.0,
+                                  "allele frequency", of_alleles=True)
+
     def describe(self):
         """One line for reports."""
         where = f" ({self.sex} X chromosomes)" if self.sex else ""
@@ -146,7 +161,7 @@ class GenotypeCount(Observation):
 
     def _log_multinomial(self, freqs):
         k = (self.AA, self.Aa, self.aa)
-        value = special.gammaln(self.total + 1.0) - sum(special.gammaln(c + 1.0) for c in k)
+        value = log_multinomial_coefficient(k)
         with np.errstate(divide="ignore", invalid="ignore"):
             for count, p in zip(k, freqs, strict=True):
                 value = value + special.xlogy(count, np.clip(p, 0.0, 1.0))
@@ -167,11 +182,8 @@ class GenotypeCount(Observation):
         if self.inheritance != "autosomal":
             return None
         k, n = self.Aa + 2 * self.aa, 2 * self.total
-        constant = (special.gammaln(self.total + 1.0)
-                    - sum(special.gammaln(c + 1.0) for c in (self.AA, self.Aa, self.aa))
-                    + self.Aa * np.log(2.0)
-                    - (special.gammaln(n + 1.0) - special.gammaln(k + 1.0)
-                       - special.gammaln(n - k + 1.0)))
+        constant = (log_multinomial_coefficient((self.AA, self.Aa, self.aa))
+                    + self.Aa * np.log(2.0) - log_choose(n, k))
         return k, n, float(constant)
 
     def statistic(self):
@@ -192,6 +204,30 @@ class GenotypeCount(Observation):
         draws = rng.multinomial(self.total, freqs)
         return np.where(good, draws[:, 1] + 2.0 * draws[:, 2], np.nan)
 
+    def statistic_trials(self, state):
+        """2N allele copies, binomial in q only in Hardy-Weinberg proportions (F = 0).
+
+        X-linked daughters' copies come from two frequencies, and inbreeding makes the two
+        copies of a person dependent: no binomial law then.
+        """
+        if self.inheritance != "autosomal" or np.any(state.params["F"] > 0):
+            return None
+        return 2 * self.total  # allele copies of people in Hardy-Weinberg proportions
+
+    def _draw_table_fields(self, state, rng):
+        freqs = np.stack(np.broadcast_arrays(*self._frequencies(state)), axis=-1)
+        AA, Aa, aa = (int(c) for c in rng.multinomial(self.total, freqs)[0])
+        return {"AA": AA, "Aa": Aa, "aa": aa}
+
+    def frequency_statistic(self):
+        """The allele frequency among the genotyped copies, (Aa + 2 aa) / 2N.
+
+        Against q_hat; at an X-linked locus the people are daughters, so q_female.
+        """
+        quantity = "q_female" if self.inheritance == "x-linked" else "q_hat"
+        return FrequencyStatistic(self.Aa + 2 * self.aa, 2 * self.total, quantity, 1.0,
+                                  "allele frequency", of_alleles=True)
+
     def describe(self):
         """One line for reports."""
         who = "daughters" if self.inheritance == "x-linked" else "people"
@@ -209,6 +245,9 @@ class Affected(Observation):
     kind: ClassVar[str] = "affected"
     depends_on_frequency: ClassVar[bool] = True
     statistic_name: ClassVar[str] = "affected births"
+    #: (c1, c2) of the affected share c1 x + c2 x^2 per mode: 1 - (1 - x)^2, x^2, x
+    _SHARE_POLYNOMIAL: ClassVar[dict] = {"dominant": (2.0, -1.0), "recessive": (0.0, 1.0),
+                                         "x-linked-male": (1.0, 0.0)}
     required: ClassVar[tuple[str, ...]] = ("affected", "total", "mode")
     optional: ClassVar[tuple[str, ...]] = ("penetrance",)
 
@@ -253,6 +292,20 @@ class Affected(Observation):
         """Binomial draws of affected births; NaN where there is no equilibrium."""
         fraction = np.where(state.exists, self._fraction(state), np.nan)
         return binomial_draw(rng, self.total, fraction)
+
+    def statistic_trials(self, state):
+        """Binomial(total, affected fraction) at every row."""
+        return self.total
+
+    def _draw_table_fields(self, state, rng):
+        return {"affected": int(rng.binomial(self.total, self._fraction(state))[0])}
+
+    def frequency_statistic(self):
+        """The affected share of births, against the incidence (sons: q_male) × penetrance."""
+        quantity = "q_male" if self.mode == "x-linked-male" else f"incidence_{self.mode}"
+        return FrequencyStatistic(self.affected, self.total, quantity, self.penetrance,
+                                  f"affected share of births ({self.mode})", of_alleles=False,
+                                  share_polynomial=self._SHARE_POLYNOMIAL[self.mode])
 
     def describe(self):
         """One line for reports."""

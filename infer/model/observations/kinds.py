@@ -1,10 +1,11 @@
-"""Observation kinds: one small class each, with a vectorised log-likelihood.
+"""The registry of observation kinds and the parser of one ``[[observations]]`` table.
 
-Every kind validates its table (:meth:`Observation.from_table`), gives the exact
-log-probability of its data for each row of a :class:`~infer.model.balance_state.State` (binomial
-and multinomial normalising constants included, so the values are true
-log-probabilities), the expected and simulated value of one summary statistic for
-posterior predictive checks, and a one-line description.
+Every kind implements the protocol of :class:`~infer.model.observations.base.Observation`:
+validation of its table, the exact log-probability of its data for each row of a
+:class:`~infer.model.balance_state.BalanceState` (normalising constants included, so the
+values are true log-probabilities), the expected, simulated and exactly tailed value of
+one predictive statistic, new data of its shape for calibration, its share of a balance
+plot's observed band, and a one-line description.
 
 Kinds (``kind = ...`` in a study's ``[[observations]]``):
 
@@ -21,9 +22,10 @@ Kinds (``kind = ...`` in a study's ``[[observations]]``):
 * ``estimate`` -- an outside estimate of mu, s or Ne with a published 95 % interval;
   a normal term on the log scale.
 
-The frequency kinds are defined in :mod:`infer.model.observations.frequency`, the others in
-:mod:`infer.model.observations.rates` and the base class in :mod:`infer.model.observations.base`; all are
-importable from here, with the registry :data:`KINDS`.
+Each kind is one module: :mod:`~infer.model.observations.frequency` (the first three),
+:mod:`~infer.model.observations.sporadic`, :mod:`~infer.model.observations.fertility` and
+:mod:`~infer.model.observations.published`. This module holds only the registry
+:data:`KINDS` and :func:`parse_observation`: import a kind's class from its own module.
 """
 
 from __future__ import annotations
@@ -31,26 +33,26 @@ from __future__ import annotations
 from typing import Any
 
 from infer.errors import InputError
-from infer.model.observations.base import Observation, x_linked_daughter_genotypes
+from infer.model.observations.base import Observation
+from infer.model.observations.fertility import Fertility
 from infer.model.observations.frequency import Affected, AlleleCount, GenotypeCount
-from infer.model.observations.rates import Estimate, Fertility, Sporadic
+from infer.model.observations.published import Estimate
+from infer.model.observations.sporadic import Sporadic
 from infer.validate import choice, quote_value
 
-__all__ = [
-    "Observation",
-    "AlleleCount",
-    "GenotypeCount",
-    "Affected",
-    "Sporadic",
-    "Fertility",
-    "Estimate",
-    "KINDS",
-    "parse_observation",
-    "x_linked_daughter_genotypes",
-]
+__all__ = ["KINDS", "parse_observation"]
 
+#: every observation kind, by its ``kind`` name in a study file (one line per kind)
 KINDS: dict[str, type[Observation]] = {
-    cls.kind: cls for cls in (AlleleCount, GenotypeCount, Affected, Sporadic, Fertility, Estimate)
+    cls.kind: cls
+    for cls in (
+        AlleleCount,
+        GenotypeCount,
+        Affected,
+        Sporadic,
+        Fertility,
+        Estimate,
+    )
 }
 
 

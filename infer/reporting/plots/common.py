@@ -1,6 +1,6 @@
 """Axis labels and the drawing helpers shared by the report plots.
 
-Figures are built with margins in inches (:func:`_panels`) and few ticks
+Figures are built with margins in inches (:func:`_panel_figure`) and few ticks
 (:func:`_tidy`); values are put on each parameter's sampling scale (:func:`_scale`,
 :func:`_to_scale`).  The underscored helpers are for :mod:`infer.reporting.plots.posterior`
 and :mod:`infer.reporting.plots.fit` only.
@@ -12,7 +12,10 @@ import math
 
 import numpy as np
 
-__all__ = ["PARAMETER_LABELS", "DPI", "axis_label"]
+from infer.core.stats import central_tails
+from infer.reporting.plots.save import new_figure
+
+__all__ = ["PARAMETER_LABELS", "DPI", "axis_label", "plain_log_formatters"]
 
 #: parameter -> axis text (name and unit or meaning)
 PARAMETER_LABELS = {
@@ -43,14 +46,25 @@ def axis_label(name: str, scale: str = "linear") -> str:
         text = text[:-1] + ", log10)" if text.endswith(")") else f"{text} (log10)"
     return text
 
-def _panels(rows, columns, width, height, *, left=0.85, right=0.25, top=0.8, bottom=0.6,
+
+def plain_log_formatters():
+    r"""(major, minor) tick formatters of a log axis that write plain text ("1e-05").
+
+    Figures are drawn with ``text.parse_math`` off (:mod:`infer.reporting.plots.save`:
+    user text stays literal), which would print matplotlib's default log tick labels,
+    ``$\mathdefault{10^{-5}}$``, as they are. These choose the same ticks to label.
+    """
+    from matplotlib.ticker import LogFormatter
+
+    return LogFormatter(), LogFormatter(labelOnlyBase=False)
+
+
+def _panel_figure(rows, columns, width, height, *, left=0.85, right=0.25, top=0.8, bottom=0.6,
             wgap=0.9, hgap=0.95, **options):
     """Figure of rows x columns panels of width x height inches, margins in inches."""
-    from matplotlib.figure import Figure
-
     total_w = left + right + columns * width + (columns - 1) * wgap
     total_h = top + bottom + rows * height + (rows - 1) * hgap
-    figure = Figure(figsize=(total_w, total_h), dpi=DPI)
+    figure = new_figure(figsize=(total_w, total_h), dpi=DPI)
     figure.subplots_adjust(left=left / total_w, right=1 - right / total_w,
                            bottom=bottom / total_h, top=1 - top / total_h,
                            wspace=wgap / width, hspace=hgap / height)
@@ -112,7 +126,7 @@ def _level(result) -> float:
     return float(result.summary.get("interval", 0.95))
 
 
-def _interval(result, name: str, draws: np.ndarray) -> tuple[float, float]:
+def _marked_interval(result, name: str, draws: np.ndarray) -> tuple[float, float]:
     entry = result.summary.get("parameters", {}).get(name, {})
     bounds = _to_scale([entry.get("lower", np.nan), entry.get("upper", np.nan)],
                        _scale(result, name))
@@ -120,8 +134,7 @@ def _interval(result, name: str, draws: np.ndarray) -> tuple[float, float]:
         return float(bounds[0]), float(bounds[1])
     if not draws.size:
         return (np.nan, np.nan)
-    tail = (1 - _level(result)) / 2
-    low, high = np.quantile(draws, [tail, 1 - tail])
+    low, high = np.quantile(draws, central_tails(_level(result)))
     return float(low), float(high)
 
 

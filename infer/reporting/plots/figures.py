@@ -1,7 +1,8 @@
 """The five PNG plots of a report folder, drawn from an ``EstimateResult``.
 
-``make_figures`` builds matplotlib ``Figure`` objects that pyplot never sees (so none
-stays open); ``write_plots`` saves them with the Agg renderer and releases them.
+``estimate_figures`` builds matplotlib ``Figure`` objects that pyplot never sees (so none
+stays open); ``write_plots`` writes them with :func:`infer.reporting.plots.save.save_figures`
+(literal ``$``, atomic rename, the umask's file mode).
 Scatter plots and curves use evenly spaced subsamples of the draws, so the pictures
 are deterministic. Margins are set in inches rather than by a layout engine, ticks are
 few, and histograms are single outlines: a layout engine and bar-per-bin histograms
@@ -16,17 +17,12 @@ from __future__ import annotations
 
 import pathlib
 
-from infer.reporting.plots.common import DPI, PARAMETER_LABELS, axis_label
-
-# the exact binomial interval of the balance plot, tested as plots._clopper_pearson
-from infer.reporting.plots.fit import (
-    _clopper_pearson,  # noqa: F401
-    balance_figure,
-    predictive_figure,
-)
+from infer.reporting.plots.common import DPI
+from infer.reporting.plots.fit import balance_curve_figure, predictive_figure
 from infer.reporting.plots.posterior import marginals_figure, pairs_figure, trace_figure
+from infer.reporting.plots.save import save_figures
 
-__all__ = ["PLOT_FILES", "PARAMETER_LABELS", "axis_label", "make_figures", "write_plots"]
+__all__ = ["PLOT_FILES", "estimate_figures", "write_plots"]
 
 #: plot key -> file name inside the report folder
 PLOT_FILES = {
@@ -36,9 +32,11 @@ PLOT_FILES = {
     "balance": "balance.png",
     "predictive": "predictive.png",
 }
+#: zlib level of the PNGs (Pillow defaults to 6; a lower level writes faster, larger files)
+_COMPRESS_LEVEL = 3
 
 
-def make_figures(result) -> dict:
+def estimate_figures(result) -> dict:
     """Build the five report figures.
 
     Parameters
@@ -49,10 +47,12 @@ def make_figures(result) -> dict:
     Returns
     -------
     dict of str to matplotlib.figure.Figure
-        Keyed as ``PLOT_FILES``; the figures are not registered with pyplot.
+        Keyed as ``PLOT_FILES``; the figures are not registered with pyplot. Build them
+        inside :func:`infer.reporting.plots.save.plain_text` so that a ``$`` in the study's
+        title or labels stays literal.
     """
     return {"marginals": marginals_figure(result), "pairs": pairs_figure(result),
-            "trace": trace_figure(result), "balance": balance_figure(result),
+            "trace": trace_figure(result), "balance": balance_curve_figure(result),
             "predictive": predictive_figure(result)}
 
 
@@ -71,18 +71,8 @@ def write_plots(result, folder: pathlib.Path) -> dict[str, str]:
     dict of str to str
         ``{"marginals": "marginals.png", ...}`` for the files written.
     """
-    import sys
+    def build():
+        return {PLOT_FILES[key]: figure for key, figure in estimate_figures(result).items()}
 
-    import matplotlib
-
-    if "matplotlib.pyplot" not in sys.modules:  # never switch (and so close) a user's pyplot
-        matplotlib.use("Agg")
-    folder = pathlib.Path(folder)
-    written = {}
-    # titles and labels carry user text: a "$" must not start matplotlib's maths parser
-    with matplotlib.rc_context({"text.parse_math": False}):
-        for key, figure in make_figures(result).items():
-            figure.savefig(folder / PLOT_FILES[key], dpi=DPI, pil_kwargs={"compress_level": 3})
-            figure.clear()
-            written[key] = PLOT_FILES[key]
-    return written
+    written = save_figures(build, folder, dpi=DPI, pil_kwargs={"compress_level": _COMPRESS_LEVEL})
+    return {key: name for key, name in PLOT_FILES.items() if name in written}

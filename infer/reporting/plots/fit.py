@@ -6,20 +6,21 @@ import math
 
 import numpy as np
 
+from infer.core.stats import clopper_pearson
 from infer.reporting.plots.common import (
     _every,
     _finite,
     _histogram,
     _level,
     _no_data,
-    _panels,
+    _panel_figure,
     _quiet,
     _tidy,
     _title,
     axis_label,
 )
 
-__all__ = ["balance_figure", "predictive_figure"]
+__all__ = ["balance_curve_figure", "predictive_figure"]
 
 _TARGET_LEGEND = {"q_hat": "q_hat", "q_male": "q_male (newborn sons)",
                   "q_female": "q_female (daughters)"}
@@ -27,37 +28,22 @@ _CURVE_DRAWS = 300
 _FIXED_DEFAULTS = {"F": 0.0, "nu": 0.0, "alpha": 1.0}
 
 
-def _clopper_pearson(k: int, n: int, level: float = 0.95) -> tuple[float, float]:
-    """Exact binomial interval (Clopper & Pearson 1934, Biometrika 26: 404-413).
-
-    The beta quantiles come from scipy.special (importing scipy.stats costs ~0.4 s).
-    """
-    from scipy.special import betaincinv
-
-    tail = (1 - level) / 2
-    lower = 0.0 if k <= 0 else float(betaincinv(k, n - k + 1, tail))
-    upper = 1.0 if k >= n else float(betaincinv(k + 1, n - k, 1 - tail))
-    return lower, upper
-
-
 def _observed_bands(result) -> list[tuple[str, float, float, str]]:
-    """(frequency compared, lower, upper, legend) per allele- or genotype-count datum."""
-    x_linked = result.study.inheritance == "x-linked"
+    """(frequency compared, lower, upper, legend) per observed allele frequency.
+
+    Each observation's share of allele copies
+    (:meth:`~infer.model.observations.base.Observation.frequency_statistic`), with its
+    95 % Clopper-Pearson interval.
+    """
     bands = []
     for obs in result.study.observations:
-        if obs.kind == "allele-count":
-            k, n = int(obs.observed), int(obs.sampled)
-            target = {"male": "q_male", "female": "q_female"}.get(getattr(obs, "sex", None),
-                                                                 "q_hat")
-        elif obs.kind == "genotype-count":
-            k, n = int(obs.Aa) + 2 * int(obs.aa), 2 * (int(obs.AA) + int(obs.Aa) + int(obs.aa))
-            target = "q_female"  # X-linked genotypes are daughters'
-        else:
+        statistic = obs.frequency_statistic()
+        if statistic is None or not statistic.of_alleles or statistic.trials <= 0:
             continue
-        if n > 0:
-            lower, upper = _clopper_pearson(k, n)
-            bands.append((target if x_linked else "q_hat", lower, upper,
-                          f"observed {obs.label}: {k}/{n} (95 % Clopper-Pearson)"))
+        k, n = statistic.count, statistic.trials
+        lower, upper = clopper_pearson(k, n)
+        bands.append((statistic.quantity, lower, upper,
+                      f"observed {obs.label}: {k}/{n} (95 % Clopper-Pearson)"))
     return bands
 
 
@@ -79,7 +65,7 @@ def _balance_curves(result, draws, against, x, targets):
                                                      ("mu", "s", "h", "F", "nu"))), float)}
 
 
-def balance_figure(result):
+def balance_curve_figure(result):
     """Exact q_hat against h (or s) over the posterior draws, with the observed frequencies.
 
     Parameters
@@ -106,7 +92,7 @@ def balance_figure(result):
     targets = sorted({band[0] for band in bands}) or ["q_hat"]
     curves = _balance_curves(result, draws, against, x, targets)
     level = _level(result)
-    figure, axes = _panels(1, 1, 5.6, 3.6, right=0.3)
+    figure, axes = _panel_figure(1, 1, 5.6, 3.6, right=0.3)
     ax = axes[0, 0]
     values = [np.array([b[2] for b in bands])]
     for number, (target, curve) in enumerate(curves.items()):
@@ -164,7 +150,7 @@ def predictive_figure(result):
     observations = list(result.study.observations)
     n = len(result.replicated)
     columns = min(3, max(n, 1))
-    figure, axes = _panels(max(1, math.ceil(n / columns)), columns, 2.8, 1.9, left=0.7,
+    figure, axes = _panel_figure(max(1, math.ceil(n / columns)), columns, 2.8, 1.9, left=0.7,
                            top=0.85, wgap=0.7, hgap=1.05)
     axes = axes.ravel()
     for i, (ax, replicated) in enumerate(zip(axes, result.replicated, strict=False)):

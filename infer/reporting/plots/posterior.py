@@ -11,10 +11,10 @@ from infer.reporting.plots.common import (
     _every,
     _finite,
     _histogram,
-    _interval,
     _level,
+    _marked_interval,
     _no_data,
-    _panels,
+    _panel_figure,
     _prior_density,
     _quiet,
     _scale,
@@ -54,7 +54,7 @@ def _marginal_panel(ax, result, name: str, legend: bool = True) -> None:
     scale = _scale(result, name)
     draws = _finite(_to_scale(result.posterior[name], scale))
     prior_draws = _finite(_to_scale(result.prior.get(name, []), scale))
-    lower, upper = _interval(result, name, draws)
+    lower, upper = _marked_interval(result, name, draws)
     low, high, note = _marginal_range(draws, prior_draws)
     z = np.linspace(low, high, 400)
     density = _prior_density(result, name, z)
@@ -105,7 +105,7 @@ def marginals_figure(result):
     names = list(result.free)
     columns = min(len(names), 3) or 1
     rows = max(1, math.ceil(len(names) / columns))
-    figure, axes = _panels(rows, columns, 3.6, 2.7)
+    figure, axes = _panel_figure(rows, columns, 3.6, 2.7)
     axes = axes.ravel()
     for number, (ax, name) in enumerate(zip(axes, names, strict=False)):
         _marginal_panel(ax, result, name, legend=number == 0)
@@ -152,7 +152,7 @@ def pairs_figure(result):
     """
     names = list(result.free)
     if len(names) < 2:
-        figure, axes = _panels(1, 1, 4.8, 3.2)
+        figure, axes = _panel_figure(1, 1, 4.8, 3.2)
         ax = axes[0, 0]
         if names:
             _marginal_panel(ax, result, names[0])
@@ -164,7 +164,7 @@ def pairs_figure(result):
         return figure
     k = len(names)
     size = max(1.3, min(2.3, 7.5 / k))
-    figure, axes = _panels(k, k, size, size, left=0.9, bottom=0.75, wgap=0.12, hgap=0.12,
+    figure, axes = _panel_figure(k, k, size, size, left=0.9, bottom=0.75, wgap=0.12, hgap=0.12,
                            sharex="col")
     labels = [axis_label(n, _scale(result, n)) for n in names]
     stack = np.column_stack([_to_scale(result.posterior[n], _scale(result, n)).ravel()
@@ -224,7 +224,7 @@ def trace_figure(result):
     import matplotlib
 
     names = list(result.free)
-    figure, axes = _panels(max(1, len(names)), 1, 8.0, 1.6, left=1.0, hgap=0.25,
+    figure, axes = _panel_figure(max(1, len(names)), 1, 8.0, 1.6, left=1.0, hgap=0.25,
                            sharex=True)
     axes = axes[:, 0]
     colours = matplotlib.colormaps["tab10"].colors

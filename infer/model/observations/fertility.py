@@ -1,0 +1,125 @@
+"""The ``fertility`` kind: children of affected people against children of reference people.
+
+:class:`Fertility` -- the conditional binomial that removes the unknown baseline
+fertility; it assumes selection acts through fertility alone.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import ClassVar
+
+import numpy as np
+
+from infer.core.stats import log_binomial
+from infer.model.observations.base import (
+    Observation,
+    at_least_one,
+    binomial_draw,
+    parse_mode,
+)
+from infer.validate import whole_count
+
+__all__ = ["Fertility"]
+
+
+@dataclass
+class Fertility(Observation):
+    """Children of affected people against children of reference people.
+
+    Derivation (the conditional binomial): the ``A`` affected people have
+    X ~ Poisson(A·w·λ) children and the ``R`` reference people Y ~ Poisson(R·λ),
+    independently, with λ the unknown baseline fertility.  Given the total
+    T = X + Y, X ~ Binomial(T, A·w / (A·w + R)), which no longer involves λ.  The
+    relative fitness is w = 1 − h·s (dominant) or 1 − s (recessive, x-linked-male);
+    this assumes selection acts through fertility alone.
+    """
+
+    kind: ClassVar[str] = "fertility"
+    depends_on_frequency: ClassVar[bool] = False
+    assumption: ClassVar[str | None] = (
+        "The fertility data are read as the whole of selection: the model assumes "
+        "selection acts through fertility alone (no extra mortality before reproductive "
+        "age).")
+    statistic_name: ClassVar[str] = "children of affected people"
+    required: ClassVar[tuple[str, ...]] = (
+        "affected_people", "affected_children", "reference_people", "reference_children", "mode",
+    )
+
+    affected_people: int = 1
+    affected_children: int = 0
+    reference_people: int = 1
+    reference_children: int = 0
+    mode: str = "dominant"
+
+    @classmethod
+    def _parse(cls, table, field, inheritance):
+        values = {k: whole_count(table[k], f"{field}.{k}") for k in cls.required if k != "mode"}
+        at_least_one(values["affected_people"], f"{field}.affected_people")
+        at_least_one(values["reference_people"], f"{field}.reference_people")
+        values["mode"] = parse_mode(table, field, inheritance)
+        return values
+
+    def relative_fitness(self, params) -> np.ndarray:
+        """Relative fitness w per row: 1 − h·s (dominant), 1 − s (recessive, x-linked-male)."""
+        s = np.asarray(params["s"], dtype=float)
+        if self.mode == "dominant":
+            return 1.0 - np.asarray(params["h"], dtype=float) * s
+        return 1.0 - s
+
+    @property
+    def total_children(self) -> int:
+        """T, the total number of children."""
+        return self.affected_children + self.reference_children
+
+    def share(self, params) -> np.ndarray:
+        """A·w / (A·w + R): the chance that a child has an affected parent."""
+        aw = self.affected_people * np.clip(self.relative_fitness(params), 0.0, None)
+        return aw / (aw + self.reference_people)
+
+    def _log_likelihood(self, state):
+        return log_binomial(self.affected_children, self.total_children, self.share(state.params))
+
+    def statistic(self):
+        """The observed children of affected people."""
+        return float(self.affected_children)
+
+    def expected(self, state):
+        """Expected children of affected people given the total, T·share."""
+        return self.total_children * self.share(state.params)
+
+    def simulate(self, state, rng):
+        """Binomial draws of the affected people's children given the total."""
+        return binomial_draw(rng, self.total_children, self.share(state.params))
+
+    def statistic_trials(self, state):
+        """Binomial(T, share) at every row, given the total T."""
+        return self.total_children
+
+    def _draw_table_fields(self, state, rng):
+        """Both counts Poisson, at the reference people's observed rate as the baseline λ.
+
+        Not the conditional binomial: the total T varies too, as in a new study.
+        """
+        w = self.relative_fitness(state.params)
+        baseline = self.reference_children / self.reference_people
+        affected_children = rng.poisson(self.affected_people * w * baseline)
+        reference_children = rng.poisson(self.reference_people * baseline)
+        return {"affected_children": int(affected_children[0]),
+                "reference_children": int(reference_children)}
+
+    def frequency_statistic(self):
+        """None: children of affected people measure the fitness, not the frequency."""
+        return None
+
+    def describe(self):
+        """One line for reports."""
+        return (
+            f"{self.label}: {self.affected_people} affected people had {self.affected_children} "
+            f"children, {self.reference_people} reference people had {self.reference_children} "
+            f"({self.mode}; selection through fertility alone)"
+        )
+
+    def parameters_used(self, model="deterministic"):
+        """Life-cycle parameters the likelihood depends on: s (and h)."""
+        return {"s", "h"} if self.mode == "dominant" else {"s"}

@@ -1,0 +1,154 @@
+"""Render a :class:`~infer.batch.report.BatchReport`: loci.csv, summary.json, the figures.
+
+:func:`loci_rows` gives the rows of loci.csv, :func:`batch_document` the object of
+summary.json, and :func:`write_batch_report` writes the report folder atomically (the
+figures of :mod:`infer.reporting.plots.batch_figures`).
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+from pathlib import Path
+
+import numpy as np
+
+from infer.batch.summary import FLAGS
+from infer.core.text import CAUTION_LINE
+from infer.reporting.folder import atomic_folder
+from infer.reporting.jsonout import dumps
+from infer.reporting.plots.batch_figures import BATCH_FIGURE_FILES, batch_figures
+from infer.reporting.plots.save import save_figures
+
+__all__ = ["BATCH_FILES", "LOCI_COLUMNS", "loci_rows", "batch_document", "write_batch_report"]
+
+#: files of a batch report folder, as summary.json lists them
+BATCH_FILES = ("loci.csv", "summary.json", *BATCH_FIGURE_FILES)
+#: header of loci.csv
+LOCI_COLUMNS = ("locus", "observed", "sampled", "mu", "mu_lower", "mu_upper", "s_het_median",
+                "s_het_lower", "s_het_upper", "s_het_mean", "expected", "flags")
+_DPI = 110
+
+
+def _g(value):
+    return f"{value:.6g}" if math.isfinite(value) else ""
+
+
+def loci_rows(table, loci: dict, flags: dict = FLAGS):
+    """Header and rows (lists of str) of loci.csv, in file order.
+
+    Parameters
+    ----------
+    table : infer.files.loci.LociTable
+        The loci read.
+    loci : dict
+        Per-locus results (``BatchResult.loci``).
+    flags : dict, optional
+        Bit -> (short name, meaning); a row's flags are its short names joined by ``;``.
+
+    Yields
+    ------
+    list of str
+    """
+    yield list(LOCI_COLUMNS)
+    bits = sorted(flags)
+    marks = {}
+    columns = [np.asarray(c, dtype=float).tolist() for c in (
+        table.observed, table.sampled, table.mu, table.mu_lower, table.mu_upper, loci["median"],
+        loci["lower"], loci["upper"], loci["mean"], loci["expected"])]
+    for i, (name, code) in enumerate(zip(table.names, np.asarray(loci["flags"]).tolist(),
+                                              strict=True)):
+        if code not in marks:
+            marks[code] = ";".join(flags[b][0] for b in bits if code & b)
+        k, n, mu, *rest = (column[i] for column in columns)
+        yield [name, f"{k:.0f}", f"{n:.0f}", f"{mu:.6g}", *map(_g, rest), marks[code]]
+
+
+def _fitted(fitted) -> dict | None:
+    if fitted is None:
+        return None
+    return {"family": "log-normal", "median": fitted.prior.median, "sigma": fitted.prior.sigma,
+            "se_log_median": fitted.se_log_median, "se_log_sigma": fitted.se_log_sigma,
+            "at_search_edge": fitted.at_search_edge, "search": fitted.search,
+            "log_marginal_likelihood": fitted.log_marginal,
+            "log_marginal_likelihood_log_uniform": fitted.log_marginal_uniform,
+            "log_bayes_factor_vs_log_uniform": fitted.log_bayes_factor}
+
+
+def batch_document(report) -> dict:
+    """The object of summary.json.
+
+    Parameters
+    ----------
+    report : infer.batch.report.BatchReport
+
+    Returns
+    -------
+    dict
+        Input, model, settings, prior, log marginal likelihood, flag counts, quantiles of
+        the medians across loci, execution, timings and the files of the folder.
+    """
+    result, table = report.result, report.table
+    settings = result.settings
+    deterministic = settings.model == "deterministic"
+    return {
+        "caution": CAUTION_LINE,
+        "command": "qhat batch",
+        "input": {"file": table.source, "loci": len(table.names),
+                  "loci_with_mu_interval": report.loci_with_mu_interval,
+                  "skipped_rows": table.skipped, "ignored_columns": table.ignored_columns},
+        "model": {
+            "name": settings.model,
+            "convention": "s_het = h*s with h = 1/2: Aa fitness 1 - s_het, aa 1 - 2 s_het; "
+                          "q_hat = mu / (s_het (1 + mu)) exactly (deterministic balance)",
+            "likelihood": "k ~ Binomial(n, q_hat)" if deterministic
+            else "k ~ Binomial(n, x), x from Wright's stationary density",
+            "Ne": settings.Ne, "nu": settings.nu if settings.model == "drift" else None,
+            "mu_uncertainty": f"log-normal with median mu and the {report.mu_level:g} central "
+                              "interval mu_lower..mu_upper, integrated out",
+        },
+        "settings": {"s_low": settings.s_low, "s_high": settings.s_high,
+                     "grid_points": settings.grid_points, "grid_step_log": settings.step,
+                     "interval": settings.interval, "mu_level": report.mu_level,
+                     "kernel_half_width": settings.half_width, "chunk_size": report.chunk_size},
+        "prior": {"requested": report.requested_prior, "used": result.prior.describe(),
+                  "family": result.prior.family, "low": settings.s_low, "high": settings.s_high,
+                  "fitted": _fitted(result.fitted)},
+        "log_marginal_likelihood": result.log_marginal,
+        "expected_count": "n x the posterior median of q_hat" if deterministic
+        else "n x E[x] under Wright's density at the posterior median of s_het",
+        "flags": {FLAGS[bit][0]: {"count": count, "meaning": FLAGS[bit][1]}
+                  for bit, count in report.flag_counts.items()},
+        "medians_across_loci": {f"q{int(p * 100):02d}": value
+                                for p, value in report.median_quantiles.items()},
+        "execution": {"jobs": report.jobs, "scheduler": report.scheduler,
+                      "chunks": result.chunks},
+        "timings": report.timings,
+        "files": list(BATCH_FILES),
+    }
+
+
+def write_batch_report(report, out, *, force: bool = False) -> Path:
+    """Write loci.csv, summary.json and the three PNG figures into ``out`` atomically.
+
+    Parameters
+    ----------
+    report : infer.batch.report.BatchReport
+    out : str or pathlib.Path
+        The report folder; refused if it exists, unless ``force``.
+    force : bool, optional
+        Replace an existing report folder.
+
+    Returns
+    -------
+    pathlib.Path
+        ``out``.
+    """
+    out = Path(out)
+    with atomic_folder(out, force=force) as folder:
+        with open(folder / "loci.csv", "w", newline="", encoding="utf-8") as handle:
+            csv.writer(handle, lineterminator="\n").writerows(
+                loci_rows(report.table, report.result.loci))
+        save_figures(lambda: batch_figures(report), folder, dpi=_DPI)
+        (folder / "summary.json").write_text(dumps(batch_document(report)), encoding="utf-8")
+    return out

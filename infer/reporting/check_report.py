@@ -1,0 +1,211 @@
+"""Render a :class:`~infer.check.run.CheckResult`: terminal text, report.md, check.json.
+
+:func:`text_report` is what ``qhat check`` prints, :func:`check_markdown` the text of
+report.md, :func:`check_document` the JSON object of ``--json`` and check.json, and
+:func:`write_check_report` writes the report folder (report.md, check.json and the
+balance plot of :mod:`infer.reporting.plots.claim_balance`) atomically.
+"""
+
+from __future__ import annotations
+
+import math
+from pathlib import Path
+
+from infer.core.text import CAUTION, caution_sentence, fmt
+from infer.reporting.folder import atomic_folder
+from infer.reporting.jsonout import dumps
+from infer.reporting.plots.claim_balance import claim_balance_figure
+from infer.reporting.plots.save import save_figures
+
+__all__ = ["CHECK_FILES", "text_report", "check_markdown", "check_document",
+           "write_check_report"]
+
+#: files of a check report folder, in the order they are listed
+CHECK_FILES = ("report.md", "check.json", "balance.png")
+_LABELS = {"error": "ERROR", "warning": "WARNING", "note": "note"}
+_DPI = 100
+
+
+def check_document(result) -> dict:
+    """The JSON object of ``qhat check --json`` and check.json.
+
+    Parameters
+    ----------
+    result : infer.check.run.CheckResult
+
+    Returns
+    -------
+    dict
+        ``{consistent, findings, implied}``; every finding with the computation behind it.
+    """
+    return {"consistent": result.consistent,
+            "findings": [f.as_dict() for f in result.findings],
+            "implied": result.implied}
+
+
+def _claimed_lines(claim) -> list[str]:
+    parts = []
+    for name, value in claim.values.items():
+        if name in claim.study.defaulted or (name == "Ne" and not math.isfinite(value)):
+            continue
+        text = f"{name} = {fmt(value)}"
+        if name in claim.intervals:
+            lower, upper = claim.intervals[name]
+            text += f" (authors' 95 % interval {fmt(lower)} to {fmt(upper)})"
+        parts.append(text)
+    return parts
+
+
+def _implied_lines(result) -> list[str]:
+    implied, claim = result.implied, result.claim
+    names = (["q_male", "q_female", "q_hat", "load_male", "new_mutation_share"]
+             if claim.inheritance == "x-linked" else
+             ["q_hat", "carrier_frequency", "incidence_dominant", "incidence_recessive", "load"])
+    band = implied.get("uncertainty", {})
+    lines = []
+    for name in names:
+        text = f"{name} = {fmt(implied.get(name))}"
+        if name in band:
+            text += f" ({fmt(band[name]['lower'])} to {fmt(band[name]['upper'])})"
+        lines.append(text)
+    return lines
+
+
+def _verdict(result) -> str:
+    errors, warnings = result.count("error"), result.count("warning")
+    if result.consistent:
+        return (f"consistent: no error-level finding ({warnings} warning(s)) at threshold "
+                f"{result.threshold:g}")
+    return (f"INCONSISTENT: {errors} error(s), {warnings} warning(s) at threshold "
+            f"{result.threshold:g} (exit status 3)")
+
+
+def text_report(result, out: Path | None = None) -> str:
+    """The readable report ``qhat check`` prints on stdout.
+
+    Parameters
+    ----------
+    result : infer.check.run.CheckResult
+    out : pathlib.Path, optional
+        The report folder written, named on the last lines.
+
+    Returns
+    -------
+    str
+    """
+    claim = result.claim
+    lines = [f"qhat check: {claim.title}", f"  claim file: {claim.path}"]
+    if claim.reference:
+        lines.append(f"  paper: {claim.reference}")
+    lines.append(f"  {claim.inheritance}, {claim.study.model} model; claimed: "
+                 + ", ".join(_claimed_lines(claim)))
+    lines.append("  implied by the claim: " + ", ".join(_implied_lines(result)))
+    lines.append("")
+    for finding in result.findings:
+        lines.append(f"{_LABELS[finding.severity]:<8} [{finding.code}] {finding.message}")
+    lines += ["", _verdict(result)]
+    if out is not None:
+        lines.append(f"report: {out}/report.md")
+    lines.append(caution_sentence())
+    return "\n".join(lines)
+
+
+def _from_data_rows(result) -> list[str]:
+    claim = result.claim
+    rows = []
+    for name, r in result.implied["from_data"].items():
+        if not r.get("informed"):
+            rows.append(f"| {name} | {fmt(claim.values[name])} | the data do not inform it "
+                        "| | | |")
+        elif not r.get("possible"):
+            rows.append(f"| {name} | {fmt(claim.values[name])} | no value makes the data "
+                        "possible | | | |")
+        else:
+            rows.append(f"| {name} | {fmt(r['claimed'])} | {fmt(r['median'])} | "
+                        f"{fmt(r['hpd_lower'])} – {fmt(r['hpd_upper'])} | "
+                        f"{fmt(r['evidence'])} | {r['held']} |")
+    return rows
+
+
+def check_markdown(result, plot: str | None) -> str:
+    """The text of report.md.
+
+    Parameters
+    ----------
+    result : infer.check.run.CheckResult
+    plot : str or None
+        File name of the balance plot inside the folder, or None for no plot.
+
+    Returns
+    -------
+    str
+    """
+    claim, implied = result.claim, result.implied
+    lines = [f"# Check: {claim.title}", "", CAUTION, ""]
+    if claim.reference:
+        lines += [f"Paper: {claim.reference}", ""]
+    lines += [f"**Verdict: {_verdict(result)}.**", "",
+              "## The claim", "", f"- Inheritance **{claim.inheritance}**, model "
+              f"**{claim.study.model}**; claim file `{claim.path}`.",
+              "- Claimed: " + "; ".join(_claimed_lines(claim)) + "."]
+    if claim.statements:
+        lines.append("- Stated: " + "; ".join(
+            f"{s.name} = {fmt(s.value)}" for s in claim.statements.values()) + ".")
+    if claim.approximation:
+        lines.append(f"- Formula used by the authors: `{claim.approximation}`.")
+    lines += ["", "## What the claimed parameters imply (exact balance)", ""]
+    lines += [f"- {text}" for text in _implied_lines(result)]
+    if "stationary" in implied:
+        st = implied["stationary"]
+        lines.append(f"- Wright's stationary density: mean {fmt(st['mean'])}, median "
+                     f"{fmt(st['median'])}, interval {fmt(st['lower'])} to {fmt(st['upper'])}")
+    lines += ["", "## Observations against the claim", "",
+              "| # | observation | observed | implied | observed/implied | p-value |",
+              "|---|---|---|---|---|---|"]
+    for o in implied["observations"]:
+        lines.append(f"| {o['index']} | {o['label']} ({o['statistic']}) | {fmt(o['observed'])} "
+                     f"| {fmt(o['implied'])} | {fmt(o['ratio'])} | {fmt(o['p_value'])} |")
+    lines += ["", "Two-sided posterior predictive p-values of each observed statistic under "
+              "the claim (its stated uncertainty included).", "",
+              "## What the reported data imply, one parameter at a time", "",
+              "| parameter | claimed | median | highest-density interval | evidence | held |",
+              "|---|---|---|---|---|---|"]
+    lines += _from_data_rows(result)
+    lines += ["", "Evidence: posterior mass (wide prior, others held at their claimed values) "
+              "where the density is no higher than at the claimed value.", "", "## Findings", ""]
+    for severity in ("error", "warning", "note"):
+        chosen = [f for f in result.findings if f.severity == severity]
+        if chosen:
+            lines += [f"### {_LABELS[severity].capitalize()}s", ""]
+            lines += [f"- `{f.code}`: {f.message}" for f in chosen]
+            lines.append("")
+    if plot:
+        lines += ["## Balance curve", "", f"![Balance curve]({plot})", ""]
+    lines += ["## Files", "", "- `check.json`: every finding with the computation behind it.",
+              "", CAUTION, ""]
+    return "\n".join(lines)
+
+
+def write_check_report(result, out: Path, *, force: bool = False) -> Path:
+    """Write report.md, check.json and balance.png into ``out`` atomically.
+
+    Parameters
+    ----------
+    result : infer.check.run.CheckResult
+    out : pathlib.Path
+        The report folder; refused if it exists, unless ``force``.
+    force : bool, optional
+        Replace an existing report folder.
+
+    Returns
+    -------
+    pathlib.Path
+        ``out``.
+    """
+    out = Path(out)
+    plot = CHECK_FILES[2]
+    with atomic_folder(out, force=force) as folder:
+        (folder / "check.json").write_text(dumps(check_document(result)), encoding="utf-8")
+        save_figures(lambda: {plot: claim_balance_figure(result)}, folder, dpi=_DPI)
+        (folder / "report.md").write_text(check_markdown(result, plot), encoding="utf-8")
+    return out
