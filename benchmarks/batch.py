@@ -44,7 +44,7 @@ sys.path.insert(0, {root!r})
 spec = importlib.util.spec_from_file_location("d", {demo!r})
 d = importlib.util.module_from_spec(spec)
 spec.loader.exec_module(d)
-from infer.batch import run as batch
+from infer.jobs.batch import run as batch
 data = d.simulate({loci}, 1)
 sigma = batch.mu_sigma_from_interval(data["mu_lower"], data["mu_upper"])
 before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss

@@ -5,20 +5,18 @@ The front door for Python users: everything the command line does, by name::
     import infer
 
     study = infer.parse_study({...})          # or infer.load_study("study.toml")
-    result = infer.estimate_study(study)      # shows a table in Jupyter
+    result = infer.estimate(study)            # shows a table in Jupyter
     infer.write_report(result, "reports/my-study")
     result.to_datatree(); result.plot()
-    infer.check_claim(infer.load_claim("claim.toml")).consistent
-    infer.batch_loci("loci.csv")              # a pandas DataFrame, one row per locus
+    infer.check(infer.load_claim("claim.toml")).consistent
+    infer.batch("loci.csv")                   # a pandas DataFrame, one row per locus
 
 Each name is imported from its home module the first time it is used (PEP 562), so
 ``import infer`` stays light and ``qhat --help`` starts fast. Results are research
 estimates, not clinical or genetic-counselling results.
 
-The estimate, check and batch jobs live in the sub-packages ``infer.estimate``,
-``infer.check`` and ``infer.batch``; the face's names for them (``estimate_study``,
-``check_claim``, ``batch_loci``) differ, because importing a sub-package rebinds its
-name on this module.
+The jobs themselves live in ``infer.jobs`` (estimate, check, batch); the face's
+``estimate``, ``check`` and ``batch`` are functions.
 """
 
 from __future__ import annotations
@@ -38,8 +36,8 @@ _HOMES = {
     "read_loci": ("infer.files.loci", "read_loci"),
     # the jobs
     "write_report": ("infer.reporting.report", "write_report"),
-    "check_claim": ("infer.check.run", "check_claim"),
-    "batch_loci": ("infer.batch.frame", "batch_loci"),
+    "check": ("infer.jobs.check.run", "check_claim"),
+    "batch": ("infer.jobs.batch.frame", "batch_loci"),
     # equilibrium
     "q_hat": ("infer.core.balance", "q_hat"),
     "autosomal_balance": ("infer.core.balance", "autosomal_balance"),
@@ -58,10 +56,10 @@ _HOMES = {
     "InputError": ("infer.errors", "InputError"),
 }
 
-__all__ = ["__version__", "estimate_study", *_HOMES]
+__all__ = ["__version__", "estimate", *_HOMES]
 
 
-def estimate_study(study, seed: int | None = None, *, settings=None, progress=None,
+def estimate(study, seed: int | None = None, *, settings=None, progress=None,
                    grid: bool = True):
     """Sample the posterior of a study to convergence: ``qhat estimate`` without the files.
 
@@ -82,11 +80,11 @@ def estimate_study(study, seed: int | None = None, *, settings=None, progress=No
     Returns
     -------
     infer.reporting.notebook.EstimateReport
-        The :class:`~infer.estimate.results.EstimateResult` (``.summary`` is summary.json)
+        The :class:`~infer.jobs.estimate.results.EstimateResult` (``.summary`` is summary.json)
         with ``.to_datatree()``, ``.plot()`` and ``.timing``; pass it to
         :func:`write_report` for the report folder.
     """
-    from infer.estimate.pipeline import estimate
+    from infer.jobs.estimate.pipeline import estimate as run_estimate
     from infer.files.study import Study, load_study, parse_study
     from infer.reporting.notebook import EstimateReport
 
@@ -94,12 +92,8 @@ def estimate_study(study, seed: int | None = None, *, settings=None, progress=No
         study = parse_study(study)
     elif not isinstance(study, Study):
         study = load_study(study)
-    result, timing = estimate(study, seed=seed, settings=settings, progress=progress, grid=grid)
+    result, timing = run_estimate(study, seed=seed, settings=settings, progress=progress, grid=grid)
     return EstimateReport.from_result(result, timing)
-
-
-#: sub-packages whose job has a differently named front door
-_JOB_NAMES = {"estimate": "estimate_study", "check": "check_claim", "batch": "batch_loci"}
 
 
 def __getattr__(name: str):
@@ -109,9 +103,7 @@ def __getattr__(name: str):
         value = getattr(importlib.import_module(module), attribute)
         globals()[name] = value   # later look-ups skip this function
         return value
-    hint = f" (the {name} job's front door is infer.{_JOB_NAMES[name]})" \
-        if name in _JOB_NAMES else ""
-    raise AttributeError(f"module 'infer' has no attribute {name!r}{hint}")
+    raise AttributeError(f"module 'infer' has no attribute {name!r}")
 
 
 def __dir__() -> list[str]:

@@ -34,8 +34,8 @@ HOMES = {
     "parse_claim": "infer.files.claim:parse_claim",
     "read_loci": "infer.files.loci:read_loci",
     "write_report": "infer.reporting.report:write_report",
-    "check_claim": "infer.check.run:check_claim",
-    "batch_loci": "infer.batch.frame:batch_loci",
+    "check": "infer.jobs.check.run:check_claim",
+    "batch": "infer.jobs.batch.frame:batch_loci",
     "q_hat": "infer.core.balance:q_hat",
     "autosomal_balance": "infer.core.balance:autosomal_balance",
     "x_linked_balance": "infer.core.x_linked:x_linked_balance",
@@ -51,7 +51,7 @@ HOMES = {
     "InputError": "infer.errors:InputError",
 }
 #: defined by the face itself
-FACE_ONLY = {"estimate_study", "__version__"}
+FACE_ONLY = {"estimate", "__version__"}
 #: docs/reports.md: every report carries the caution
 CAUTION_LINE = "research estimate, not a clinical or genetic-counselling result"
 
@@ -112,24 +112,21 @@ eager = sorted(n for n in {sorted(HOMES)!r} if n in vars(infer))
 for name in {sorted(HOMES)!r}:
     getattr(infer, name)
 cached = sorted(n for n in {sorted(HOMES)!r} if n not in vars(infer))
-try:
-    infer.estimate
-    hint = "no AttributeError"
-except AttributeError as error:
-    hint = str(error)
+import infer.jobs.estimate.pipeline, infer.jobs.check.run, infer.jobs.batch.frame
+jobs = [type(getattr(infer, n)).__name__ for n in ("estimate", "check", "batch")]
 print(heavy, loaded, eager, cached, sep="\\n")
-print(hint)
+print(jobs)
 """
     done = run_python(code, cwd=ROOT)
     assert done.returncode == 0, str(done)
-    heavy, loaded, eager, cached, hint = done.stdout.splitlines()
+    heavy, loaded, eager, cached, jobs = done.stdout.splitlines()
     assert heavy == "[]", f"`import infer` imported {heavy}: the face must stay lazy"
     assert loaded == "[]", f"`import infer` imported sub-modules {loaded}"
     assert eager == "[]", f"names bound before first use: {eager} (PEP 562 __getattr__)"
     assert cached == "[]", f"names not cached in the module after first use: {cached}"
-    assert "estimate_study" in hint, (
-        f"infer.estimate before the sub-package is imported should point to "
-        f"infer.estimate_study; got {hint!r}")
+    assert jobs == "['function', 'function', 'function']", (
+        f"infer.estimate/check/batch must stay the face's functions after the job modules "
+        f"(infer.jobs.*) are imported; got types {jobs}")
 
 
 def test_help_imports_no_numpy():
@@ -145,11 +142,11 @@ def test_help_imports_no_numpy():
 
 def test_sub_packages_stay_reachable_beside_the_face_names():
     """Importing a job's sub-package rebinds its name on ``infer``; the face's don't clash."""
-    import infer.estimate.pipeline
+    import infer.jobs.estimate.pipeline
 
-    assert callable(infer.estimate_study), "infer.estimate_study should be a function"
-    assert infer.estimate.pipeline.estimate is importlib.import_module(
-        "infer.estimate.pipeline").estimate, "infer.estimate should stay the sub-package"
+    assert callable(infer.estimate), "infer.estimate should be a function"
+    assert infer.jobs.estimate.pipeline.estimate is importlib.import_module(
+        "infer.jobs.estimate.pipeline").estimate, "infer.estimate should stay the sub-package"
 
 
 # ---------------------------------------------------------------- parse_study
@@ -215,7 +212,7 @@ def test_parse_study_still_refuses_numpy_booleans_and_does_not_touch_the_input()
 
 @pytest.fixture(scope="module")
 def estimated(tmp_path_factory):
-    result = infer.estimate_study(tomllib.loads(STUDY_TOML),
+    result = infer.estimate(tomllib.loads(STUDY_TOML),
                                   settings=SamplerSettings(target_ess=200), grid=False)
     folder = infer.write_report(result, tmp_path_factory.mktemp("front") / "report")
     return result, folder
@@ -316,7 +313,7 @@ def test_batch_loci_is_qhat_batch_as_a_data_frame(tmp_path, capsys):
     with open(tmp_path / "out" / "loci.csv", newline="", encoding="utf-8") as handle:
         command = {row["locus"]: row for row in csv.DictReader(handle)}
 
-    frame = infer.batch_loci(loci)
+    frame = infer.batch(loci)
     assert list(frame.index) == [r.split(",")[0] for r in rows[1:]], (
         "rows should be indexed by locus name in file order")
     assert frame.index.name == "locus"
@@ -338,7 +335,7 @@ def test_batch_loci_is_qhat_batch_as_a_data_frame(tmp_path, capsys):
 
 def test_batch_loci_refuses_a_bad_setting_by_its_keyword():
     with pytest.raises(InputError) as bad:
-        infer.batch_loci(DEMO / "batch_loci.csv", s_high=0.8)
+        infer.batch(DEMO / "batch_loci.csv", s_high=0.8)
     assert str(bad.value).startswith("s_high: 0.8 is above 0.5"), str(bad.value)
 
 

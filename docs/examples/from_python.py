@@ -46,7 +46,7 @@ BRANNOCH = {
 def estimate_and_report(out: Path) -> None:
     """Estimate mu and s, write the report folder, compare with the exact equilibrium."""
     study = infer.parse_study(BRANNOCH, source="brannoch")
-    result = infer.estimate_study(study)
+    result = infer.estimate(study)
     print(result)                       # medians, intervals, verdict and the caution
     folder = infer.write_report(result, out / "brannoch", force=True)
     print(f"report folder: {folder} ({', '.join(sorted(p.name for p in folder.iterdir()))})")
@@ -63,7 +63,7 @@ def estimate_and_report(out: Path) -> None:
 def check_claims() -> None:
     """A reviewer's check of every invented claim in data_demo/."""
     for path in sorted(DEMO.glob("claim-*.toml")):
-        checked = infer.check_claim(infer.load_claim(path))
+        checked = infer.check(infer.load_claim(path))
         verdict = "consistent" if checked.consistent else "INCONSISTENT"
         print(f"{path.name}: {verdict} (errors {checked.count('error')}, "
               f"warnings {checked.count('warning')}, notes {checked.count('note')})")
@@ -74,7 +74,7 @@ def check_claims() -> None:
 
 def batch() -> None:
     """Per-locus heterozygous selection for the invented loci of data_demo/."""
-    loci = infer.batch_loci(DEMO / "batch_loci.csv")
+    loci = infer.batch(DEMO / "batch_loci.csv")
     print(f"{len(loci)} loci; prior {loci.attrs['prior']}")
     strongest = loci.sort_values("s_het_median", ascending=False).head(5)
     print(strongest[["observed", "sampled", "mu", "s_het_median", "s_het_lower",

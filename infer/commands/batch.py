@@ -1,8 +1,8 @@
 """``qhat batch``: per-locus heterozygous selection (s_het) for many loci at once.
 
 Reads a loci CSV (columns in ``infer.files.loci``), computes every locus's posterior of
-s_het by exact quadrature (``infer.batch.run``), gathers a ``BatchReport``
-(``infer.batch.report``) and writes a report folder (``infer.reporting.batch_report``):
+s_het by exact quadrature (``infer.jobs.batch.run``), gathers a ``BatchReport``
+(``infer.jobs.batch.report``) and writes a report folder (``infer.reporting.batch_report``):
 loci.csv, summary.json and three PNG figures. ``--jobs N`` runs chunks of loci in N local
 processes; ``--scheduler ADDRESS`` on a dask.distributed cluster. The chunks, and so
 the results, are the same whichever way the work runs.
@@ -87,7 +87,8 @@ def _executor(args):
         from concurrent.futures import ProcessPoolExecutor
 
         context = multiprocessing.get_context("forkserver")
-        context.set_forkserver_preload(["infer.batch.run", "scipy.special", "scipy.interpolate"])
+        context.set_forkserver_preload(
+            ["infer.jobs.batch.run", "scipy.special", "scipy.interpolate"])
         with ProcessPoolExecutor(max_workers=args.jobs, mp_context=context) as pool:
             yield lambda function, tasks: pool.map(function, tasks)
     else:
@@ -112,9 +113,9 @@ def run(args) -> int:
 
 def _run(args, out, started) -> int:
     """Read the loci, compute, write the report (inside ``terminate_as_interrupt``)."""
-    from infer.batch import run as batch
-    from infer.batch.chunk_store import ChunkStore
-    from infer.batch.report import summarise_batch
+    from infer.jobs.batch import run as batch
+    from infer.jobs.batch.chunk_store import ChunkStore
+    from infer.jobs.batch.report import summarise_batch
     from infer.files.loci import describe_skipped, read_loci
     from infer.reporting.batch_report import write_batch_report
 

@@ -5,7 +5,7 @@ Do they fit together under mutation-selection balance?
 Prints each finding with its severity; ``--json`` prints ``{consistent, findings,
 implied}``; ``--out DIR`` writes ``report.md``, ``check.json`` and ``balance.png``
 atomically. Exit status 0 when consistent, 3 when any finding is an error, 2 on bad input.
-The check is :func:`infer.check.run.check_claim`; the renderers are in
+The check is :func:`infer.jobs.check.run.check_claim`; the renderers are in
 :mod:`infer.reporting.check_report`.
 """
 
@@ -50,7 +50,7 @@ def run(args) -> int:
     if out is not None:
         check_destination(out, args.force)
     with terminate_as_interrupt():
-        from infer.check.run import check_claim
+        from infer.jobs.check.run import check_claim
         from infer.reporting import check_report
 
         result = check_claim(claim, threshold=threshold)

@@ -73,7 +73,7 @@ def _estimate_into_folder(args, plotter):
         out.parent.mkdir(exist_ok=True)
     check_destination(out, args.force)
     show = progress_printer(args.quiet)
-    from infer.estimate.pipeline import estimate
+    from infer.jobs.estimate.pipeline import estimate
     from infer.reporting.report import write_report
 
     result, timing = estimate(study, seed=args.seed, progress=show)

@@ -1,4 +1,4 @@
-"""Render a :class:`~infer.batch.report.BatchReport`: loci.csv, summary.json, the figures.
+"""Render a :class:`~infer.jobs.batch.report.BatchReport`: loci.csv, summary.json, the figures.
 
 :func:`loci_rows` gives the rows of loci.csv, :func:`batch_document` the object of
 summary.json, and :func:`write_batch_report` writes the report folder atomically (the
@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from infer.batch.summary import FLAGS
+from infer.jobs.batch.summary import FLAGS
 from infer.core.text import CAUTION_LINE
 from infer.reporting.folder import atomic_folder
 from infer.reporting.jsonout import dumps
@@ -80,7 +80,7 @@ def batch_document(report) -> dict:
 
     Parameters
     ----------
-    report : infer.batch.report.BatchReport
+    report : infer.jobs.batch.report.BatchReport
 
     Returns
     -------
@@ -133,7 +133,7 @@ def write_batch_report(report, out, *, force: bool = False) -> Path:
 
     Parameters
     ----------
-    report : infer.batch.report.BatchReport
+    report : infer.jobs.batch.report.BatchReport
     out : str or pathlib.Path
         The report folder; refused if it exists, unless ``force``.
     force : bool, optional

@@ -1,4 +1,4 @@
-"""Render a :class:`~infer.check.run.CheckResult`: terminal text, report.md, check.json.
+"""Render a :class:`~infer.jobs.check.run.CheckResult`: terminal text, report.md, check.json.
 
 :func:`text_report` is what ``qhat check`` prints, :func:`check_markdown` the text of
 report.md, :func:`check_document` the JSON object of ``--json`` and check.json, and
@@ -31,7 +31,7 @@ def check_document(result) -> dict:
 
     Parameters
     ----------
-    result : infer.check.run.CheckResult
+    result : infer.jobs.check.run.CheckResult
 
     Returns
     -------
@@ -85,7 +85,7 @@ def text_report(result, out: Path | None = None) -> str:
 
     Parameters
     ----------
-    result : infer.check.run.CheckResult
+    result : infer.jobs.check.run.CheckResult
     out : pathlib.Path, optional
         The report folder written, named on the last lines.
 
@@ -132,7 +132,7 @@ def check_markdown(result, plot: str | None) -> str:
 
     Parameters
     ----------
-    result : infer.check.run.CheckResult
+    result : infer.jobs.check.run.CheckResult
     plot : str or None
         File name of the balance plot inside the folder, or None for no plot.
 
@@ -191,7 +191,7 @@ def write_check_report(result, out: Path, *, force: bool = False) -> Path:
 
     Parameters
     ----------
-    result : infer.check.run.CheckResult
+    result : infer.jobs.check.run.CheckResult
     out : pathlib.Path
         The report folder; refused if it exists, unless ``force``.
     force : bool, optional

@@ -73,7 +73,7 @@ def netcdf_groups(result, log_prob: np.ndarray | None = None) -> tuple[dict, dic
 
 
 def to_datatree(result, log_prob: np.ndarray | None = None):
-    """Build the arviz 1.x DataTree of an :class:`~infer.estimate.results.EstimateResult`.
+    """Build the arviz 1.x DataTree of an :class:`~infer.jobs.estimate.results.EstimateResult`.
 
     Imports arviz_base (about half a second); ``qhat estimate`` writes the same groups
     with :func:`write_netcdf` instead.
@@ -105,7 +105,7 @@ def write_netcdf(result, path: Path, log_prob: np.ndarray | None = None) -> None
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
     path : pathlib.Path
     log_prob : ndarray, optional
         Log posterior of each kept draw (chain, draw), stored as ``sample_stats.lp``.

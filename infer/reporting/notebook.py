@@ -1,10 +1,10 @@
 """An estimate result with its renderers attached, for Python and notebook users.
 
-:class:`~infer.estimate.results.EstimateResult` is a data class of the estimate job,
+:class:`~infer.jobs.estimate.results.EstimateResult` is a data class of the estimate job,
 which may not import a renderer (DEVELOPERS.md, "Layout"). :class:`EstimateReport` is
 the same data with the two renderers a notebook wants as methods: the arviz DataTree
 (:func:`infer.reporting.netcdf.to_datatree`) and the report figures
-(:func:`infer.reporting.plots.figures.estimate_figures`). ``infer.estimate_study`` returns
+(:func:`infer.reporting.plots.figures.estimate_figures`). ``infer.estimate`` returns
 one; :func:`infer.reporting.report.write_report` accepts it like any result.
 """
 
@@ -12,14 +12,14 @@ from __future__ import annotations
 
 import dataclasses
 
-from infer.estimate.results import EstimateResult
+from infer.jobs.estimate.results import EstimateResult
 
 __all__ = ["EstimateReport"]
 
 
 @dataclasses.dataclass(repr=False)
 class EstimateReport(EstimateResult):
-    """An :class:`~infer.estimate.results.EstimateResult` that can draw itself.
+    """An :class:`~infer.jobs.estimate.results.EstimateResult` that can draw itself.
 
     Attributes
     ----------

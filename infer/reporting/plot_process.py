@@ -119,7 +119,7 @@ def _child() -> int:
         import matplotlib
 
         matplotlib.use("Agg")
-        import infer.estimate.results  # noqa: F401  (what unpickling the result needs, imported now)
+        import infer.jobs.estimate.results  # noqa: F401  (what unpickling the result needs, imported now)
         from infer.reporting.plots.figures import write_plots
 
         _warm_up()

@@ -18,7 +18,7 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
     out : pathlib.Path
         The report folder; refused if it exists, unless ``force``.
     timing : dict, optional

@@ -175,7 +175,7 @@ def test_bad_claim(tmp_path, capsys, case, old, new, needle):
 
 # Batch CSVs: the rest of the catalogue (empty file, missing column, text, negative,
 # above total, duplicated locus, NaN, half an interval, short row, fractional count,
-# mu above 1, header only) is in tests/batch/test_batch.py.
+# mu above 1, header only) is in tests/jobs/batch/test_batch.py.
 BATCH_HEADER = "locus,observed,sampled,mu,mu_lower,mu_upper\n"
 BATCH_GOOD = "GENE0001,3,1000,1e-6,5e-7,2e-6\n"
 

@@ -5,7 +5,7 @@ Data are simulated here with numpy directly from the life cycle (the exact balan
 frequency from ``infer.core.balance``, itself checked against mpmath in
 tests/core/test_balance.py), not with the observation classes' own predictive draws. Every
 observation kind is checked on the exact grid posterior (the same posterior the sampler
-targets; the sampler's agreement with the grid is tested in tests/estimate/test_estimate.py),
+targets; the sampler's agreement with the grid is tested in tests/jobs/estimate/test_estimate.py),
 and one two-parameter study is checked through the full emcee sampler.
 
 The genotype frequencies of the simulation are AA p² + Fpq, Aa 2pq(1-F), aa q² + Fpq

@@ -1,6 +1,6 @@
 """The rendering of ``qhat batch``: the BatchReport numbers, loci.csv, summary.json, figures.
 
-Covers infer/batch/report.py (the numbers), infer/reporting/batch_report.py (loci.csv,
+Covers infer/jobs/batch/report.py (the numbers), infer/reporting/batch_report.py (loci.csv,
 summary.json, the folder) and infer/reporting/plots/batch_figures.py (the figures).
 
 References (named again beside each check):
@@ -30,10 +30,10 @@ import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 from scipy import stats  # noqa: E402
 
-from infer.batch import run as batch  # noqa: E402
-from infer.batch.prior import SHetPrior  # noqa: E402
-from infer.batch.report import MEDIAN_PROBABILITIES, prior_curve, summarise_batch  # noqa: E402
-from infer.batch.summary import FLAGS  # noqa: E402
+from infer.jobs.batch import run as batch  # noqa: E402
+from infer.jobs.batch.prior import SHetPrior  # noqa: E402
+from infer.jobs.batch.report import MEDIAN_PROBABILITIES, prior_curve, summarise_batch  # noqa: E402
+from infer.jobs.batch.summary import FLAGS  # noqa: E402
 from infer.cli import main  # noqa: E402
 from infer.files.loci import read_loci  # noqa: E402
 from infer.reporting import batch_report  # noqa: E402

@@ -1,6 +1,6 @@
 """The rendering of ``qhat check``: the balance curve it draws, the plot, the report folder.
 
-Covers infer/check/balance_curve.py (the computation), infer/reporting/plots/
+Covers infer/jobs/check/balance_curve.py (the computation), infer/reporting/plots/
 claim_balance.py (the figure) and infer/reporting/check_report.py (text, JSON, folder).
 
 References (named again beside each check):
@@ -29,7 +29,7 @@ import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 from scipy import stats  # noqa: E402
 
-from infer.check.run import check_claim  # noqa: E402
+from infer.jobs.check.run import check_claim  # noqa: E402
 from infer.cli import main  # noqa: E402
 from infer.files.claim import load_claim  # noqa: E402
 from infer.reporting import check_report  # noqa: E402

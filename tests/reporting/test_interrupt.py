@@ -378,13 +378,13 @@ class FakeTerminal(io.StringIO):
 
 
 def test_interrupted_message_starts_its_own_line_on_a_terminal(tmp_path, monkeypatch):
-    import infer.estimate.pipeline
+    import infer.jobs.estimate.pipeline
 
     def estimate(study, seed=None, progress=None, **_):
         progress(600, 40_000)
         raise KeyboardInterrupt
 
-    monkeypatch.setattr(infer.estimate.pipeline, "estimate", estimate)
+    monkeypatch.setattr(infer.jobs.estimate.pipeline, "estimate", estimate)
     terminal = FakeTerminal()
     monkeypatch.setattr(sys, "stderr", terminal)
     study = write_study(tmp_path / "study.toml")

@@ -14,7 +14,7 @@ import numpy as np
 import pytest
 from conftest import run_python
 
-from infer.estimate.pipeline import estimate
+from infer.jobs.estimate.pipeline import estimate
 from infer.files.study import parse_study
 from infer.inference.sampling import SamplerSettings
 from infer.reporting.netcdf import to_datatree, write_netcdf
@@ -105,7 +105,7 @@ def test_writing_does_not_import_arviz_or_xarray(tmp_path):
         "import sys\n"
         "import tomllib\n"
         "from infer.files.study import parse_study\n"
-        "from infer.estimate.pipeline import estimate\n"
+        "from infer.jobs.estimate.pipeline import estimate\n"
         "from infer.inference.sampling import SamplerSettings\n"
         "from infer.reporting.netcdf import write_netcdf\n"
         f"study = parse_study(tomllib.loads({STUDY!r}), source='t.toml')\n"

@@ -13,7 +13,7 @@ import tomllib
 
 import pytest
 
-from infer.estimate.pipeline import estimate
+from infer.jobs.estimate.pipeline import estimate
 from infer.files.study import parse_study
 from infer.inference.sampling import SamplerSettings
 from infer.reporting.plot_process import PlotProcess

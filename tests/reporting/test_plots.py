@@ -28,7 +28,7 @@ from infer.inference.grid import GridPosterior  # noqa: E402
 from infer.reporting.plots import figures as plots  # noqa: E402
 from infer.reporting.plots.common import axis_label  # noqa: E402
 from infer.reporting.plots.save import plain_text  # noqa: E402
-from infer.estimate.results import EstimateResult  # noqa: E402
+from infer.jobs.estimate.results import EstimateResult  # noqa: E402
 from infer.files.study import parse_study  # noqa: E402
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C 2003), section 5.2

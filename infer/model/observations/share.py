@@ -31,7 +31,7 @@ class FrequencyStatistic:
         The observed share, k of n.
     quantity : str
         The balance quantity the share measures, named as the quantities a claim implies
-        (:func:`infer.check.implied.implied_quantities`): ``"q_hat"``, ``"q_male"`` or
+        (:func:`infer.jobs.check.implied.implied_quantities`): ``"q_hat"``, ``"q_male"`` or
         ``"q_female"`` (allele frequencies; ``"q_male"`` also for affected sons), or
         ``"incidence_dominant"`` / ``"incidence_recessive"`` (affected share of births
         at full penetrance).

@@ -38,7 +38,7 @@ def batch_figures(report) -> dict:
 
     Parameters
     ----------
-    report : infer.batch.report.BatchReport
+    report : infer.jobs.batch.report.BatchReport
         Per-locus results, the loci read and the prior curve.
 
     Returns

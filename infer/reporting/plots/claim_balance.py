@@ -1,6 +1,6 @@
 """The balance plot of ``qhat check``: the implied quantity against mu, with the data.
 
-Draws a :class:`~infer.check.balance_curve.ClaimBalanceCurve` (computed by the check):
+Draws a :class:`~infer.jobs.check.balance_curve.ClaimBalanceCurve` (computed by the check):
 the exact balance curve, the claimed point, the measured range of mutation rates and
 the observed fraction with its exact interval. Build it inside
 :func:`infer.reporting.plots.save.plain_text` (``save_figures`` does).
@@ -19,7 +19,7 @@ def claim_balance_figure(result):
 
     Parameters
     ----------
-    result : infer.check.run.CheckResult
+    result : infer.jobs.check.run.CheckResult
         Its ``balance_curve`` is drawn; its ``claim`` gives the title and legend values.
 
     Returns

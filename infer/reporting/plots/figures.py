@@ -41,7 +41,7 @@ def estimate_figures(result) -> dict:
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
         Posterior, prior, trace and predictive draws with their summary.
 
     Returns
@@ -61,7 +61,7 @@ def write_plots(result, folder: pathlib.Path) -> dict[str, str]:
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
         What to draw.
     folder : pathlib.Path
         An existing folder (the report's temporary folder).

@@ -70,7 +70,7 @@ def balance_curve_figure(result):
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
 
     Returns
     -------
@@ -140,7 +140,7 @@ def predictive_figure(result):
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
 
     Returns
     -------

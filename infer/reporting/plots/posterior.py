@@ -96,7 +96,7 @@ def marginals_figure(result):
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
 
     Returns
     -------
@@ -144,7 +144,7 @@ def pairs_figure(result):
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
 
     Returns
     -------
@@ -215,7 +215,7 @@ def trace_figure(result):
 
     Parameters
     ----------
-    result : infer.estimate.results.EstimateResult
+    result : infer.jobs.estimate.results.EstimateResult
 
     Returns
     -------

@@ -14,7 +14,7 @@ class ChunkStore:
     """Disk-backed ``index -> array`` mapping in a private temporary folder.
 
     Keeps the drift model's per-chunk log-likelihoods between the two empirical-Bayes
-    passes of :func:`infer.batch.run.analyse` without holding them in memory. Use as a
+    passes of :func:`infer.jobs.batch.run.analyse` without holding them in memory. Use as a
     context manager; the folder goes away on exit.
     """
 

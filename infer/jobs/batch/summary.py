@@ -6,8 +6,8 @@ import math
 
 import numpy as np
 
-from infer.batch.likelihood import _log_binomial_lattice
-from infer.batch.prior import SHetPrior, trapezoid_weights
+from infer.jobs.batch.likelihood import _log_binomial_lattice
+from infer.jobs.batch.prior import SHetPrior, trapezoid_weights
 from infer.core.stats import Z975
 
 __all__ = ["posterior_summary", "FLAGS"]

@@ -13,8 +13,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from infer.check.implied import implied_quantities
-from infer.check.trade import PER_LOCUS_RANGE, PER_NUCLEOTIDE_RANGE
+from infer.jobs.check.implied import implied_quantities
+from infer.jobs.check.trade import PER_LOCUS_RANGE, PER_NUCLEOTIDE_RANGE
 from infer.core.stats import clopper_pearson
 from infer.files.claim import Claim
 from infer.model.balance_state import BalanceState
@@ -64,7 +64,7 @@ class ClaimBalanceCurve:
     claimed_mu, claimed_value : float
         The claimed mu and the quantity it implies (times the penetrance).
     measured_range : tuple of float
-        Measured mutation rates on the claim's ``mu_scale`` (``infer.check.trade``).
+        Measured mutation rates on the claim's ``mu_scale`` (``infer.jobs.check.trade``).
     mu_scale : str
         ``"locus"`` or ``"nucleotide"``.
     band : ObservedBand or None

@@ -35,11 +35,11 @@ Findings (``code``: what raises it):
   explanations, as notes, when balance with a measured mutation rate cannot explain
   the data.
 
-The findings are made in :mod:`infer.check.predictive` (observations, statements),
-:mod:`infer.check.intervals` (intervals implied by the data) and
-:mod:`infer.check.trade` (approximations, drift, measured rates, alternatives); the
-implied quantities in :mod:`infer.check.implied`, the balance curve against mu in
-:mod:`infer.check.balance_curve`. Each name is imported from the module that defines
+The findings are made in :mod:`infer.jobs.check.predictive` (observations, statements),
+:mod:`infer.jobs.check.intervals` (intervals implied by the data) and
+:mod:`infer.jobs.check.trade` (approximations, drift, measured rates, alternatives); the
+implied quantities in :mod:`infer.jobs.check.implied`, the balance curve against mu in
+:mod:`infer.jobs.check.balance_curve`. Each name is imported from the module that defines
 it; the renderers are in :mod:`infer.reporting.check_report`.
 """
 
@@ -51,12 +51,12 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
-from infer.check.balance_curve import ClaimBalanceCurve, claim_balance_curve
-from infer.check.findings import SEVERITIES, Finding, claimed_text
-from infer.check.implied import implied_values
-from infer.check.intervals import implied_intervals
-from infer.check.predictive import observation_finding, statement_findings
-from infer.check.trade import (
+from infer.jobs.check.balance_curve import ClaimBalanceCurve, claim_balance_curve
+from infer.jobs.check.findings import SEVERITIES, Finding, claimed_text
+from infer.jobs.check.implied import implied_values
+from infer.jobs.check.intervals import implied_intervals
+from infer.jobs.check.predictive import observation_finding, statement_findings
+from infer.jobs.check.trade import (
     alternative_explanations,
     approximation_findings,
     drift_findings,
@@ -90,7 +90,7 @@ class CheckResult:
         parameter intervals implied by the data (``from_data``).
     threshold : float
         The p-value below which a finding is an error.
-    balance_curve : infer.check.balance_curve.ClaimBalanceCurve
+    balance_curve : infer.jobs.check.balance_curve.ClaimBalanceCurve
         The quantity the first frequency observation measures against mu, the other
         parameters held at their claimed values, with that observation's interval.
     """

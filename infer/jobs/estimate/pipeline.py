@@ -11,7 +11,7 @@ from collections.abc import Callable
 
 import numpy as np
 
-from infer.estimate.results import EstimateResult, summarise
+from infer.jobs.estimate.results import EstimateResult, summarise
 from infer.inference.sampling import SamplerSettings, run_to_convergence
 from infer.model.posterior import Model
 
@@ -70,7 +70,7 @@ def estimate(study, seed: int | None = None, settings: SamplerSettings | None = 
         grid_seconds = time.perf_counter() - t0
     result = summarise(model, run, rng, grid=grid_result, seed=seed)
     if study.model == "drift":
-        from infer.estimate.drift_comparison import compare_drift_with_deterministic
+        from infer.jobs.estimate.drift_comparison import compare_drift_with_deterministic
 
         result.summary["drift_comparison"] = compare_drift_with_deterministic(
             study, result.posterior, rng)

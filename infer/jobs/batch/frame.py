@@ -1,7 +1,7 @@
 """``qhat batch`` from Python: per-locus posteriors of s_het as a pandas DataFrame.
 
 :func:`batch_loci` reads and validates a loci CSV (:func:`infer.files.loci.read_loci`),
-runs :func:`infer.batch.run.analyse` with the settings ``qhat batch`` takes as options,
+runs :func:`infer.jobs.batch.run.analyse` with the settings ``qhat batch`` takes as options,
 and returns one row per locus, indexed by locus name, with the flags spelled out
 (``"zero-observed;at-prior-bound"``, as in loci.csv) rather than as bit codes. Nothing is written.
 """
@@ -13,7 +13,7 @@ import os
 
 import numpy as np
 
-from infer.batch.run import FLAGS, BatchSettings, analyse, mu_sigma_from_interval
+from infer.jobs.batch.run import FLAGS, BatchSettings, analyse, mu_sigma_from_interval
 from infer.core.text import CAUTION_LINE
 from infer.errors import InputError
 from infer.files.loci import LociTable, read_loci
@@ -115,7 +115,7 @@ def batch_loci(loci: str | os.PathLike | LociTable, *, model: str = "determinist
         mu_upper``, then ``s_het_median, s_het_lower, s_het_upper, s_het_mean,
         sd_log_s_het`` (sd of ln s_het), ``expected`` (posterior predictive median of
         the count), ``log_marginal`` and ``flag_names`` (the ``flags`` column of
-        loci.csv: names of ``infer.batch.run.FLAGS``, ``";"``-separated, empty when
+        loci.csv: names of ``infer.jobs.batch.run.FLAGS``, ``";"``-separated, empty when
         none; not ``flags``, which is a DataFrame attribute). ``frame.attrs`` holds the
         prior used, the flag meanings, the settings, the summed log marginal likelihood
         and the caution.

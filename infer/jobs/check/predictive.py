@@ -13,8 +13,8 @@ import math
 
 import numpy as np
 
-from infer.check.findings import Finding
-from infer.check.implied import drift_moments
+from infer.jobs.check.findings import Finding
+from infer.jobs.check.implied import drift_moments
 from infer.core.stats import log_binomial, two_sided_p_value
 from infer.core.text import fmt
 from infer.files.claim import Claim
@@ -42,7 +42,7 @@ def statement_findings(claim: Claim, implied: dict, threshold: float) -> list[Fi
     ----------
     claim : infer.files.claim.Claim
     implied : dict
-        The implied quantities (:func:`infer.check.implied.implied_values`).
+        The implied quantities (:func:`infer.jobs.check.implied.implied_values`).
     threshold : float
         Not used: statements are judged by the claim's rounding tolerance.
 

@@ -2,7 +2,7 @@
 
 The deterministic model's lattice rule (mu integrated as a correlation on the grid
 spacing) and the drift model's spline shortcuts. ``settings`` is an
-``infer.batch.run.BatchSettings``.
+``infer.jobs.batch.run.BatchSettings``.
 """
 
 from __future__ import annotations

@@ -69,10 +69,10 @@ the expected count (n × posterior median of q_hat; drift model: n × E[x] at th
 posterior median of s_het) and ``FLAGS``.
 
 Layout: this module holds the settings, the chunk driver (``analyse``, ``run_chunk``)
-and re-exports the pieces: ``infer.batch.likelihood`` (grids), ``infer.batch.prior``
-(prior families, empirical-Bayes fit), ``infer.batch.summary`` (per-locus summaries).
-``infer.batch.report`` gathers a finished run into a ``BatchReport``,
-``infer.batch.chunk_store`` keeps chunks on disk between passes; the loci file is read
+and re-exports the pieces: ``infer.jobs.batch.likelihood`` (grids), ``infer.jobs.batch.prior``
+(prior families, empirical-Bayes fit), ``infer.jobs.batch.summary`` (per-locus summaries).
+``infer.jobs.batch.report`` gathers a finished run into a ``BatchReport``,
+``infer.jobs.batch.chunk_store`` keeps chunks on disk between passes; the loci file is read
 by ``infer.files.loci`` and the report folder written by ``infer.reporting.batch_report``.
 """
 
@@ -83,15 +83,15 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from infer.batch.likelihood import TAILS, drift_coarse_log_likelihood, likelihood_grid
-from infer.batch.prior import (
+from infer.jobs.batch.likelihood import TAILS, drift_coarse_log_likelihood, likelihood_grid
+from infer.jobs.batch.prior import (
     FittedPrior,
     SHetPrior,
     fit_log_normal_prior,
     hyper_grid,
     log_marginal_surface,
 )
-from infer.batch.summary import FLAGS, posterior_summary
+from infer.jobs.batch.summary import FLAGS, posterior_summary
 
 __all__ = [
     "BatchSettings",

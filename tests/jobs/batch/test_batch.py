@@ -1,4 +1,4 @@
-"""Tests of ``qhat batch``: infer/batch/ (maths), infer/files/loci.py, the command.
+"""Tests of ``qhat batch``: infer/jobs/batch/ (maths), infer/files/loci.py, the command.
 
 References outside the code under test:
 
@@ -28,10 +28,10 @@ import numpy as np
 import pytest
 from scipy import integrate, optimize, special, stats
 
-from infer.batch import run as batch
+from infer.jobs.batch import run as batch
 from infer.cli import main
 
-ROOT = Path(__file__).resolve().parents[2]
+ROOT = Path(__file__).resolve().parents[3]
 _spec = importlib.util.spec_from_file_location("make_batch_demo",
                                                ROOT / "benchmarks" / "make_batch_demo.py")
 demo = importlib.util.module_from_spec(_spec)
@@ -576,7 +576,7 @@ def test_sigterm_during_the_run_leaves_nothing(tmp_path):
     temporary = tmp_path / "tmp"
     temporary.mkdir()
     script = ("import os, signal, sys\n"
-              "from infer.batch import run as batch\n"
+              "from infer.jobs.batch import run as batch\n"
               "from infer.cli import main\n"
               "real = batch.run_chunk\n"
               "def run_chunk(task):\n"

@@ -13,7 +13,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from infer.check.findings import Finding, claimed_text
+from infer.jobs.check.findings import Finding, claimed_text
 from infer.core.text import fmt
 from infer.files.claim import WIDE_PRIORS, Claim
 from infer.model.priors.parsing import SUPPORT

@@ -10,7 +10,7 @@ Motulsky, *Human Genetics*; REFERENCES.md).
 import numpy as np
 import pytest
 
-from infer.estimate.pipeline import estimate
+from infer.jobs.estimate.pipeline import estimate
 from infer.files.study import parse_study
 from infer.inference.grid import compare_with_draws, grid_posterior
 from infer.model.posterior import Model

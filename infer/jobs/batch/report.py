@@ -1,7 +1,7 @@
 """Everything a ``qhat batch`` report shows, computed once: :class:`BatchReport`.
 
 :func:`summarise_batch` gathers the loci read (:class:`~infer.files.loci.LociTable`),
-the per-locus results (:class:`~infer.batch.run.BatchResult`) and how the run was made,
+the per-locus results (:class:`~infer.jobs.batch.run.BatchResult`) and how the run was made,
 and computes the numbers the summary and the figures show: loci per flag, quantiles of
 the posterior medians across loci and the density of the prior used. The renderers
 (:mod:`infer.reporting.batch_report`, :mod:`infer.reporting.plots.batch_figures`) only
@@ -15,9 +15,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from infer.batch.prior import SHetPrior
-from infer.batch.run import BatchResult, BatchSettings
-from infer.batch.summary import FLAGS
+from infer.jobs.batch.prior import SHetPrior
+from infer.jobs.batch.run import BatchResult, BatchSettings
+from infer.jobs.batch.summary import FLAGS
 from infer.files.loci import LociTable
 
 __all__ = ["MEDIAN_PROBABILITIES", "BatchReport", "prior_curve", "summarise_batch"]
@@ -34,7 +34,7 @@ class BatchReport:
     ----------
     table : infer.files.loci.LociTable
         The loci read, in file order (skipped rows and ignored columns included).
-    result : infer.batch.run.BatchResult
+    result : infer.jobs.batch.run.BatchResult
         Per-locus results, the settings and the prior used.
     requested_prior : str
         The prior asked for (``"log-uniform"``, ``"empirical"``).
@@ -83,8 +83,8 @@ def prior_curve(prior: SHetPrior, settings: BatchSettings) -> tuple[np.ndarray, 
 
     Parameters
     ----------
-    prior : infer.batch.prior.SHetPrior
-    settings : infer.batch.run.BatchSettings
+    prior : infer.jobs.batch.prior.SHetPrior
+    settings : infer.jobs.batch.run.BatchSettings
         Its grid of ln s_het.
 
     Returns
@@ -108,8 +108,8 @@ def summarise_batch(table: LociTable, result: BatchResult, mu_sigma, *, requeste
     ----------
     table : infer.files.loci.LociTable
         The loci read.
-    result : infer.batch.run.BatchResult
-        What :func:`infer.batch.run.analyse` returned for them.
+    result : infer.jobs.batch.run.BatchResult
+        What :func:`infer.jobs.batch.run.analyse` returned for them.
     mu_sigma : array_like, shape (loci,)
         Sigma of ln mu per locus (0 where mu is exact).
     requested_prior : str

@@ -26,12 +26,12 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from infer.check.run import check_claim
+from infer.jobs.check.run import check_claim
 from infer.files.claim import load_claim, parse_claim
 from infer.errors import InputError
 from infer.reporting.check_report import check_document
 
-ROOT = Path(__file__).resolve().parents[2]
+ROOT = Path(__file__).resolve().parents[3]
 
 
 def _claim_text(parameters: str, observations: str, claimed: str = "", head: str = "") -> str:
@@ -245,7 +245,7 @@ def test_claim_uncertainty_widens_the_predictive(tmp_path):
     """A wide authors' interval lowers the evidence against the observed count.
 
     Cross-check of the exact tail average against Monte Carlo predictive draws
-    (infer.estimate.results.two_sided_p_value on binomial draws, the definition itself).
+    (infer.jobs.estimate.results.two_sided_p_value on binomial draws, the definition itself).
     """
     point = check_claim(_claim(tmp_path, "mu = 1.5e-5\ns = 0.5\nh = 1.0", DOM_OBS))
     wide = check_claim(_claim(tmp_path, "mu = { claimed = 1.5e-5, lower = 5e-6, upper = 4.5e-5 }"
@@ -254,7 +254,7 @@ def test_claim_uncertainty_widens_the_predictive(tmp_path):
     p_wide = wide.implied["observations"][0]["p_value"]
     assert p_wide > p_point, (
         f"wide interval p {p_wide:.3g} should exceed the point claim's {p_point:.3g}")
-    from infer.estimate.results import two_sided_p_value
+    from infer.jobs.estimate.results import two_sided_p_value
 
     rng = np.random.default_rng(3)
     sigma = (math.log(4.5e-5) - math.log(5e-6)) / (2 * 1.959963984540054)

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from infer.check.findings import Finding, claimed_text
+from infer.jobs.check.findings import Finding, claimed_text
 from infer.core.text import fmt
 from infer.files.claim import Claim
 from infer.model.balance_state import BalanceState
@@ -212,7 +212,7 @@ def trade_findings(claim: Claim, from_data: dict) -> list[Finding]:
     ----------
     claim : infer.files.claim.Claim
     from_data : dict
-        The intervals implied by the data (:func:`infer.check.intervals.implied_intervals`).
+        The intervals implied by the data (:func:`infer.jobs.check.intervals.implied_intervals`).
 
     Returns
     -------

@@ -1,7 +1,7 @@
 """Shared prior on s_het for ``qhat batch``: families and the empirical-Bayes fit.
 
-See :mod:`infer.batch.run`'s docstring for the hierarchical model; ``settings`` is an
-``infer.batch.run.BatchSettings``.
+See :mod:`infer.jobs.batch.run`'s docstring for the hierarchical model; ``settings`` is an
+``infer.jobs.batch.run.BatchSettings``.
 """
 
 from __future__ import annotations

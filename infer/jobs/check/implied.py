@@ -3,7 +3,7 @@
 :func:`implied_quantities` evaluates the exact deterministic balance row by row;
 :func:`drift_moments` gives Wright's stationary summary for the drift model; and
 :func:`implied_values` gathers both, with intervals under the claim's stated
-uncertainty, for :class:`~infer.check.run.CheckResult`.
+uncertainty, for :class:`~infer.jobs.check.run.CheckResult`.
 """
 
 from __future__ import annotations
