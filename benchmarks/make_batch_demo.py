@@ -1,6 +1,6 @@
 """Write data_demo/batch_loci.csv: fictional genes simulated from a known s_het distribution.
 
-Generating values (documented in data_demo/batch_loci.md; tests/test_batch.py reads
+Generating values (documented in data_demo/batch_loci.md; tests/jobs/batch/test_batch.py reads
 them from ``GENERATING``):
 
 * s_het ~ log-normal, median 0.01, sigma of ln 1.5, truncated to [1e-5, 0.5]

@@ -32,7 +32,7 @@ __all__ = [
     "option_error",
     "option_name",
     "number",
-    "choice",
+    "option_choice",
     "png_path",
     "convert",
     "equilibrium_options",
@@ -157,7 +157,7 @@ def number(value: Any, option: str, accepted: Range | None = None) -> float | in
     return parsed
 
 
-def choice(value: str, option: str, allowed) -> str:
+def option_choice(value: str, option: str, allowed) -> str:
     """One of a fixed set of names: ``'y-linked' is not one of autosomal, x-linked``."""
     if value not in allowed:
         raise option_error(option, f"{value!r} is not one of {', '.join(allowed)}")
@@ -215,7 +215,7 @@ def equilibrium_options(args) -> dict:
     for name, (accepted, default) in EQUILIBRIUM_NUMBERS.items():
         value = number(getattr(args, name, None), f"--{name}", accepted)
         options[name] = default if value is None else value
-    inheritance = choice(args.inheritance, "--inheritance", INHERITANCES)
+    inheritance = option_choice(args.inheritance, "--inheritance", INHERITANCES)
     options["inheritance"] = inheritance
     if inheritance == "autosomal" and args.alpha is not None:
         raise option_error("--alpha", f"{args.alpha} applies to x-linked loci only")
@@ -312,8 +312,8 @@ def batch_options(args) -> None:
     infer.errors.InputError
         For the first bad option, naming it and its value.
     """
-    args.model = choice(args.model, "--model", MODELS)
-    args.prior = choice(args.prior, "--prior", BATCH_PRIORS)
+    args.model = option_choice(args.model, "--model", MODELS)
+    args.prior = option_choice(args.prior, "--prior", BATCH_PRIORS)
     convert(args, BATCH_NUMBERS)
     if not args.s_low < args.s_high:
         raise option_error("--s-low", f"{_typed(args.s_low)} must be below --s-high "

@@ -9,7 +9,7 @@ Two routes to the same groups:
   dask for xarray's write locks, and building the labelled tree cost about as much as the
   whole sampling run of a two-parameter study; h5netcdf alone costs a few hundredths of a
   second. ``xarray.open_datatree`` and ``arviz_base.from_netcdf`` read the file back equal
-  to :func:`to_datatree` (tests/test_netcdf.py checks group by group).
+  to :func:`to_datatree` (tests/reporting/test_netcdf.py checks group by group).
 
 Layout (arviz's convention for arrays given without dims): the sampled groups have
 dimensions ``chain`` and ``draw`` with integer coordinates, further axes of a variable

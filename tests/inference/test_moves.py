@@ -1,4 +1,4 @@
-"""The grouped moves draw the published proposals (infer/moves.py).
+"""The grouped moves draw the published proposals (infer/inference/moves.py).
 
 References: differential evolution picks an ordered pair of distinct walkers uniformly and
 scales their difference by gamma = 2.38 / sqrt(2 ndim) (ter Braak 2006, Statistics and

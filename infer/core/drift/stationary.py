@@ -40,7 +40,7 @@ log Z for arrays of rows at once:
 3. Pieces are combined with logaddexp; nothing is exponentiated before the row's
    maximum is subtracted, so A, B up to ~1e6 and c up to 5e4 are handled.
 
-Accuracy (checked against mpmath in tests/test_drift.py and benchmarks/drift.py):
+Accuracy (checked against mpmath in tests/core/test_drift.py and benchmarks/drift.py):
 relative error below 1e-9 in the sweeps, against the 1e-6 required, over 4Ne·mu ∈ [1e-6, 10],
 4Ne·s ∈ [0, 1e5], h ∈ [0, 1], 4Ne·nu ∈ [1e-6, 10], n ≤ 1e6. Sample exponents are formed
 as b + (n - k), never (b + n) - k, which would lose b when b ≪ 1 ≪ n.

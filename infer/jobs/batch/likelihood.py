@@ -1,4 +1,4 @@
-"""Per-locus likelihood grids of ``qhat batch`` (maths of infer/batch.py's docstring).
+"""Per-locus likelihood grids of ``qhat batch`` (maths of infer/jobs/batch/run.py's docstring).
 
 The deterministic model's lattice rule (mu integrated as a correlation on the grid
 spacing) and the drift model's spline shortcuts. ``settings`` is an

@@ -20,8 +20,6 @@ from infer.model.priors.parsing import Fixed
 __all__ = [
     "EstimateResult",
     "summarise",
-    "two_sided_p_value",
-    "central_quantiles",
     "contraction",
     "identifiability",
 ]

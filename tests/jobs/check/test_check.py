@@ -254,7 +254,7 @@ def test_claim_uncertainty_widens_the_predictive(tmp_path):
     p_wide = wide.implied["observations"][0]["p_value"]
     assert p_wide > p_point, (
         f"wide interval p {p_wide:.3g} should exceed the point claim's {p_point:.3g}")
-    from infer.jobs.estimate.results import two_sided_p_value
+    from infer.core.stats import two_sided_p_value
 
     rng = np.random.default_rng(3)
     sigma = (math.log(4.5e-5) - math.log(5e-6)) / (2 * 1.959963984540054)
