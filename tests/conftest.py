@@ -21,6 +21,8 @@ import sys
 from collections.abc import Mapping, Sequence
 from pathlib import Path
 
+import pytest
+
 __all__ = [
     "DEMO",
     "ROOT",
@@ -124,3 +126,18 @@ def call_qhat(argv: Sequence, capsys) -> tuple[int, str, str]:
         status = 0 if stop.code is None else stop.code if isinstance(stop.code, int) else 1
     captured = capsys.readouterr()
     return status, captured.out, captured.err
+
+
+@pytest.fixture
+def umask():
+    """Set the process umask for one test and put the old one back afterwards."""
+    previous = os.umask(0o022)
+    os.umask(previous)
+
+    def set_umask(value):
+        """Set ``value`` and return the mode a new file gets under it."""
+        os.umask(value)
+        return 0o666 & ~value
+
+    yield set_umask
+    os.umask(previous)

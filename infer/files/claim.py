@@ -65,18 +65,10 @@ from infer.model.priors.parsing import (
     Uniform,
     parse_parameter,
 )
-from infer.validate import (
-    check_keys as _check_keys,
-)
-from infer.validate import (
-    choice as _choice,
-)
-from infer.validate import (
-    quote_value as _fmt,
-)
-from infer.validate import (
-    real_number as _real,
-)
+from infer.validate import check_keys as _check_keys
+from infer.validate import choice as _choice
+from infer.validate import quote_value as _fmt
+from infer.validate import real_number as _real
 
 __all__ = [
     "Claim",

@@ -50,21 +50,6 @@ PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"  # PNG specification (W3C 2003), section 5.
 LOCI = 200
 
 
-@pytest.fixture
-def umask():
-    """Set the process umask for one test and put the old one back afterwards."""
-    previous = os.umask(0o022)
-    os.umask(previous)
-
-    def set_umask(value):
-        """Set ``value`` and return the mode a new file gets under it."""
-        os.umask(value)
-        return 0o666 & ~value
-
-    yield set_umask
-    os.umask(previous)
-
-
 @pytest.fixture(scope="module")
 def made(tmp_path_factory):
     """(loci file, BatchReport) for 200 simulated loci under the log-uniform prior."""

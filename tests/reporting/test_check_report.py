@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import io
 import json
-import os
 
 import matplotlib
 
@@ -70,21 +69,6 @@ def _exact_q(mu, s, h):
     roots = np.roots([a, b, -mu])
     real = [r.real for r in roots if abs(r.imag) < 1e-18 and 0 < r.real < 1]
     return min(real) if real else np.nan
-
-
-@pytest.fixture
-def umask():
-    """Set the process umask for one test and put the old one back afterwards."""
-    previous = os.umask(0o022)
-    os.umask(previous)
-
-    def set_umask(value):
-        """Set ``value`` and return the mode a new file gets under it."""
-        os.umask(value)
-        return 0o666 & ~value
-
-    yield set_umask
-    os.umask(previous)
 
 
 def _drawn(figure):

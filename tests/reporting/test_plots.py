@@ -13,7 +13,6 @@ from __future__ import annotations
 import functools
 import io
 import math
-import os
 
 import matplotlib
 
@@ -165,21 +164,6 @@ def _drawn(figure):
     with plain_text():
         figure.savefig(io.BytesIO(), format="png", dpi=40)
     return figure
-
-
-@pytest.fixture
-def umask():
-    """Set the process umask for one test and put the old one back afterwards."""
-    previous = os.umask(0o022)
-    os.umask(previous)
-
-    def set_umask(value):
-        """Set ``value`` and return the mode a new file gets under it."""
-        os.umask(value)
-        return 0o666 & ~value
-
-    yield set_umask
-    os.umask(previous)
 
 
 FREE_SETS = [("mu",), ("mu", "s"), ("mu", "s", "h")]
