@@ -20,8 +20,7 @@ from __future__ import annotations
 import math
 import os
 import re
-from dataclasses import dataclass
-from typing import Any
+from typing import Any, NamedTuple
 
 from infer.core.choices import INHERITANCES, MODELS
 from infer.errors import InputError
@@ -69,8 +68,7 @@ def option_name(dest: str) -> str:
     return "--" + dest.replace("_", "-")
 
 
-@dataclass(frozen=True)
-class Range:
+class Range(NamedTuple):
     """What a numeric option accepts.
 
     Attributes
