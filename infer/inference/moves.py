@@ -12,7 +12,7 @@ directly with the arrays it returns (log-probability and per-observation log-lik
 columns), not through emcee's ``compute_log_prob``, which unpacks every walker's result
 in a Python loop; the sampler, its random state and its storage are emcee's.
 
-Two proposals, both symmetric in the sense their references prove:
+Three proposals. Two are symmetric in the sense their references prove:
 
 - :class:`GroupedDifferentialEvolution`: ``q = x + gamma * (c_i - c_j)`` for a random
   ordered pair of distinct walkers of the other half, ``gamma = 2.38 / sqrt(2 ndim)``
@@ -20,6 +20,11 @@ Two proposals, both symmetric in the sense their references prove:
   constants of emcee's ``DEMove``, after Nelson et al. 2014, ApJS 210:11);
 - :class:`GroupedStretch`: ``q = c + z (x - c)`` with ``g(z) ~ 1/sqrt(z)`` on
   ``[1/a, a]`` and the factor ``z^(ndim - 1)`` (Goodman & Weare 2010, CAMCoS 5:65).
+
+The third, :class:`GroupedIndependence`, draws every walker's proposal from a fixed density
+g of its own block (``infer.inference.proposal``) and accepts with the
+Metropolis–Hastings factor ``g(x) / g(q)`` (the independence sampler of Tierney 1994,
+Annals of Statistics 22:1701). It needs no other walker, so all walkers move at once.
 """
 
 from __future__ import annotations
@@ -32,7 +37,7 @@ from infer.inference.emcee_loader import load_emcee
 
 emcee = load_emcee()
 
-__all__ = ["GroupedDifferentialEvolution", "GroupedStretch"]
+__all__ = ["GroupedDifferentialEvolution", "GroupedStretch", "GroupedIndependence"]
 
 #: evaluate(points (n, ndim)) -> (log_prob (n,), blobs (n, k) or None)
 Evaluate = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray | None]]
@@ -130,3 +135,48 @@ class GroupedStretch(_GroupedMove):
         partner = other[np.arange(groups)[:, None], random.randint(other.shape[1],
                                                                    size=(groups, m))]
         return partner + z[..., None] * (moving - partner), (ndim - 1.0) * np.log(z)
+
+
+class GroupedIndependence(emcee.moves.Move):
+    """Independence Metropolis–Hastings proposals, one fixed density per block.
+
+    Parameters
+    ----------
+    proposals : sequence of MixtureProposal
+        One density per block of walkers (``groups = len(proposals)``); each block's was
+        fitted to that block's own pilot draws, so blocks stay independent.
+    evaluate : callable
+        ``evaluate(points)`` -> ``(log_prob, blobs)`` for an (n, ndim) array.
+    """
+
+    def __init__(self, proposals, evaluate: Evaluate):
+        self.proposals = list(proposals)
+        self.groups = len(self.proposals)
+        self.evaluate = evaluate
+
+    def _proposal(self, current: np.ndarray, random):
+        """Proposals (g, m, ndim) and log factors log g(current) - log g(proposal)."""
+        groups, m, ndim = current.shape
+        proposed = np.empty_like(current)
+        factors = np.empty((groups, m))
+        for g, density in enumerate(self.proposals):
+            proposed[g] = density.sample(random, m)
+            both = density.log_density(np.concatenate([current[g], proposed[g]]))
+            factors[g] = both[:m] - both[m:]
+        return proposed, factors
+
+    def propose(self, model, state):
+        """Move every walker at once; return the state and acceptances."""
+        nwalkers, ndim = state.coords.shape
+        per_group = nwalkers // self.groups
+        current = state.coords.reshape(self.groups, per_group, ndim)
+        proposed, factors = self._proposal(current, model.random)
+        proposed = proposed.reshape(-1, ndim)
+        log_prob, blobs = self.evaluate(proposed)
+        log_u = np.log(model.random.rand(nwalkers))
+        accept = factors.ravel() + log_prob - state.log_prob > log_u
+        state.coords[accept] = proposed[accept]
+        state.log_prob[accept] = log_prob[accept]
+        if blobs is not None:
+            state.blobs[accept] = blobs[accept]
+        return state, accept

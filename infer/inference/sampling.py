@@ -1,21 +1,37 @@
 """Run emcee ensembles until the posterior is converged.
 
 Several ensembles are started independently (from different prior draws) and run side by
-side in blocks of steps. After each block the run stops when, for every free parameter,
+side. A run has three phases:
 
-- the bulk effective sample size over all ensembles is at least ``target_ess``,
-- split R-hat across ensembles (each ensemble one chain, split in time) is below
-  ``max_r_hat``, and
-- each ensemble's chain is longer than ``tau_multiple`` integrated autocorrelation times
-  (Foreman-Mackey et al. 2013, PASP 125:306: "about 50 autocorrelation times").
+1. **Exploration.** Differential-evolution and stretch moves from the starting points, in
+   blocks of ``first_block`` steps. After each block, walkers whose best recent log
+   density lies more than :func:`stuck_threshold` below their ensemble's median are moved
+   onto typical walkers of the same ensemble (a stuck walker averaged into the draws puts
+   a far tail where the posterior has none).
+2. **Adaptation.** Each ensemble fits a mixture density to its own recent draws
+   (``infer.inference.proposal``) and samples with an independence proposal from it
+   (mixed with differential evolution), ``adapt_rounds`` times; the mixture follows a
+   curved ridge, which the affine-invariant moves cross slowly. These steps are discarded.
+3. **Sampling**, with the mixtures fixed (so the chain is a valid Markov chain), checked
+   after each block on the whole chain of this phase. The run stops when, for every free
+   parameter,
+
+   - the bulk effective sample size over all ensembles is at least ``target_ess``,
+   - split R-hat across ensembles (each ensemble one chain, split in time) is below
+     ``max_r_hat``,
+   - the chain is longer than ``tau_multiple`` integrated autocorrelation times
+     (Foreman-Mackey et al. 2013, PASP 125:306: "about 50 autocorrelation times"),
+   - the autocorrelation time moved by at most ``tau_stability`` (relative) since the
+     previous check (a short chain underestimates it), and
+   - no walker is stuck (a stuck walker restarts the phase, at most twice).
 
 Walkers of one ensemble are not independent chains (LIBRARIES.md: treating them as chains
 inflates R-hat), so R-hat compares ensembles, and the effective sample size is computed
 on each ensemble's walkers laid end to end (walker-major), where the lag structure of the
-sequence is that of a single walker.
+sequence is that of a single walker. No move passes information between ensembles.
 
-The burn-in is ``ceil(burn_in_taus * tau_max)`` steps of each ensemble; the kept draws are
-thinned by ``max(1, floor(tau_min / 2))`` steps.
+The first ``ceil(burn_in_taus * tau_max)`` steps of the sampling phase are discarded as
+well; the kept draws are thinned by ``max(1, floor(tau_min / 2))`` steps.
 """
 
 from __future__ import annotations
@@ -49,9 +65,17 @@ class SamplerSettings:
     tau_multiple : float
         Chains must be longer than this many autocorrelation times.
     first_block, max_steps : int
-        Steps per ensemble in the first block, and the cap on the total.
+        Steps per ensemble in each exploration block, and the cap on the total.
     burn_in_taus : float
-        Burn-in length in autocorrelation times.
+        Steps discarded at the start of the sampling phase, in autocorrelation times.
+    adapt_rounds, adapt_steps : int
+        Fits of the independence proposals before the sampling phase, and the steps run
+        after each fit.
+    check_block : int
+        Steps of the first block of the sampling phase (later blocks are sized from the
+        estimates).
+    tau_stability : float
+        Largest relative change of an autocorrelation time between two checks.
     """
 
     walkers: int = 48
@@ -59,9 +83,13 @@ class SamplerSettings:
     target_ess: float = 1000.0
     max_r_hat: float = 1.01
     tau_multiple: float = 50.0
-    first_block: int = 500
+    first_block: int = 200
     max_steps: int = 40_000
     burn_in_taus: float = 3.0
+    adapt_rounds: int = 2
+    adapt_steps: int = 60
+    check_block: int = 100
+    tau_stability: float = 0.1
 
 
 @dataclass
@@ -78,6 +106,10 @@ class SamplingRun:
     log_prob : ndarray, shape (chains, draws)
     trace : ndarray, shape (chains, steps, walkers, ndim)
         Time-ordered kept draws (thinned), for trace plots.
+    moved_walkers : int
+        Stuck walkers moved onto typical ones (all phases).
+    exploration_steps : int
+        Steps of the exploration and adaptation phases.
     """
 
     z: np.ndarray
@@ -96,19 +128,88 @@ class SamplingRun:
     seconds: float
     evaluations: int
     messages: list[str] = field(default_factory=list)
+    moved_walkers: int = 0
+    exploration_steps: int = 0
 
 
-def _seeded_sampler(emcee, nwalkers, ndim, log_prob, evaluate, rng, groups):
+def _sampler(emcee, nwalkers, ndim, log_prob, moves, random):
+    sampler = emcee.EnsembleSampler(nwalkers, ndim, log_prob, vectorize=True, moves=moves)
+    # emcee keeps a legacy RandomState and ignores a Generator (LIBRARIES.md); one state
+    # is shared by the phases so that the whole run follows from the seed.
+    sampler._random = random
+    return sampler
+
+
+def _exploring_moves(groups, evaluate):
     from infer.inference.moves import GroupedDifferentialEvolution, GroupedStretch
 
     # Differential-evolution moves (ter Braak 2006, Statistics and Computing 16:239)
     # mix faster than the default stretch move on correlated balance posteriors.
-    moves = [(GroupedDifferentialEvolution(groups, evaluate), 0.8),
-             (GroupedStretch(groups, evaluate), 0.2)]
-    sampler = emcee.EnsembleSampler(nwalkers, ndim, log_prob, vectorize=True, moves=moves)
-    # emcee keeps a legacy RandomState and ignores a Generator (LIBRARIES.md).
-    sampler._random = np.random.RandomState(np.random.MT19937(int(rng.integers(2**32))))
-    return sampler
+    return [(GroupedDifferentialEvolution(groups, evaluate), 0.8),
+            (GroupedStretch(groups, evaluate), 0.2)]
+
+
+def _sampling_moves(groups, evaluate, proposals):
+    from infer.inference.moves import (GroupedDifferentialEvolution, GroupedIndependence,
+                                       GroupedStretch)
+
+    if proposals is None:
+        return _exploring_moves(groups, evaluate)
+    return [(GroupedIndependence(proposals, evaluate), 0.75),
+            (GroupedDifferentialEvolution(groups, evaluate), 0.2),
+            (GroupedStretch(groups, evaluate), 0.05)]
+
+
+def stuck_threshold(ndim: int) -> float:
+    """Log-density gap below the ensemble's median that marks a walker as stuck.
+
+    Half the chi-square(ndim) quantile at 1 - 1e-6, and at least 10: for a Gaussian
+    posterior a walker falls that far below the maximum with probability 1e-6 per step
+    (common practice: twice the log-density drop from the mode is chi-square distributed
+    with ndim degrees of freedom near a regular mode).
+    """
+    from scipy.special import gammaincinv
+
+    return max(10.0, float(gammaincinv(ndim / 2.0, 1.0 - 1e-6)))
+
+
+def stuck_walkers(log_prob: np.ndarray, ndim: int) -> np.ndarray:
+    """Walkers stuck far below their ensemble, from recent log densities.
+
+    Parameters
+    ----------
+    log_prob : ndarray, shape (ensembles, steps, walkers)
+        Recent log densities of each ensemble's walkers.
+    ndim : int
+
+    Returns
+    -------
+    ndarray of bool, shape (ensembles, walkers)
+        True where a walker's best recent value is more than :func:`stuck_threshold`
+        below the median of its ensemble.
+    """
+    median = np.median(log_prob.reshape(log_prob.shape[0], -1), axis=1)
+    best = log_prob.max(axis=1)
+    return best < median[:, None] - stuck_threshold(ndim)
+
+
+def _relocate(state, stuck: np.ndarray, walkers: int, random) -> int:
+    """Move stuck walkers onto walkers of their own ensemble at or above its median."""
+    moved = 0
+    for e, row in enumerate(stuck):
+        if not row.any():
+            continue
+        index = e * walkers + np.arange(walkers)
+        lp = state.log_prob[index]
+        good = index[lp >= np.median(lp)]
+        targets = good[random.randint(len(good), size=int(row.sum()))]
+        bad = index[row]
+        state.coords[bad] = state.coords[targets]
+        state.log_prob[bad] = state.log_prob[targets]
+        if state.blobs is not None:
+            state.blobs[bad] = state.blobs[targets]
+        moved += len(bad)
+    return moved
 
 
 def _autocorr_times(emcee, chain: np.ndarray) -> np.ndarray:
@@ -129,6 +230,17 @@ def _diagnose(kept: np.ndarray):
         ess_tail[j] = diagnostics.ess_tail(walker_major[..., j])
         r_hat[j] = diagnostics.r_hat(time_major[..., j])
     return ess_bulk, ess_tail, r_hat
+
+
+def _fit_proposals(chains: np.ndarray, rng: np.random.Generator):
+    """One mixture per ensemble from its own draws (groups, steps, walkers, ndim), or None."""
+    from infer.inference.proposal import fit_mixture
+
+    groups, _, _, ndim = chains.shape
+    try:
+        return [fit_mixture(c.reshape(-1, ndim), rng) for c in chains]
+    except (ValueError, np.linalg.LinAlgError):
+        return None
 
 
 def run_to_convergence(
@@ -182,7 +294,8 @@ def run_to_convergence(
         return lp if extra is None else np.column_stack([lp, extra])
 
     groups = settings.ensembles
-    sampler = _seeded_sampler(emcee, walkers * groups, ndim, for_emcee, evaluate, rng, groups)
+    nwalkers = walkers * groups
+    random = np.random.RandomState(np.random.MT19937(int(rng.integers(2**32))))
     coords = np.concatenate([initial(rng, walkers) for _ in range(groups)])
     state = emcee.State(coords, *evaluate(coords))
 
@@ -193,47 +306,134 @@ def run_to_convergence(
 
     started = time.perf_counter()
     steps = 0
-    block = settings.first_block
     messages: list[str] = []
-    converged = False
-    while True:
-        block = min(block, settings.max_steps - steps)
-        state = sampler.run_mcmc(state, block, progress=False)
-        steps += block
+    moved = 0
+
+    def advance(sampler, state, n):
+        nonlocal steps
+        state = sampler.run_mcmc(state, n, progress=False)
+        steps += n
         if progress is not None:
             progress(steps, settings.max_steps)
-        chains = by_ensemble(sampler.get_chain())  # (ensembles, steps, walkers, ndim)
-        tau = np.max([_autocorr_times(emcee, c) for c in chains], axis=0)
-        burn_in = min(int(math.ceil(settings.burn_in_taus * tau.max())), steps // 2)
-        thin = max(1, int(tau.min() // 2))
-        kept = chains[:, burn_in::thin]
-        ess_bulk, ess_tail, r_hat = _diagnose(kept)
-        long_enough = (steps - burn_in) > settings.tau_multiple * tau
-        ok = (ess_bulk >= settings.target_ess) & (r_hat < settings.max_r_hat) & long_enough
-        if ok.all():
-            converged = True
+        return state
+
+    def settle(sampler, state, n):
+        """Run n steps, then move walkers stuck far below their ensemble; True if none."""
+        nonlocal moved
+        state = advance(sampler, state, n)
+        recent = by_ensemble(sampler.get_log_prob()[-max(n // 2, 1):])
+        stuck = stuck_walkers(recent, ndim)
+        moved += _relocate(state, stuck, walkers, random)
+        return state, not stuck.any()
+
+    # 1. Exploration: differential evolution from the starting points, with stuck walkers
+    #    moved onto their ensemble's typical ones, until no walker is stuck.
+    explorer = _sampler(emcee, nwalkers, ndim, for_emcee, _exploring_moves(groups, evaluate),
+                        random)
+    for _ in range(4):
+        n = min(settings.first_block, settings.max_steps - steps)
+        if n <= 0:
             break
+        state, clean = settle(explorer, state, n)
+        if clean:
+            break
+    pilot = by_ensemble(explorer.get_chain()[-max(settings.first_block // 2, 1):])
+
+    # 2. Adaptation: each ensemble fits an independence proposal to its own recent draws,
+    #    samples with it for a while, and fits again; these steps are discarded too.
+    proposals = None
+    for _ in range(settings.adapt_rounds):
+        n = min(settings.adapt_steps, settings.max_steps - steps)
+        if n <= 0:
+            break
+        proposals = _fit_proposals(pilot, rng)
+        adapter = _sampler(emcee, nwalkers, ndim, for_emcee,
+                           _sampling_moves(groups, evaluate, proposals), random)
+        state, _ = settle(adapter, state, n)
+        pilot = by_ensemble(adapter.get_chain())
+    if steps < settings.max_steps and settings.adapt_rounds:
+        proposals = _fit_proposals(pilot, rng)
+    exploration = steps
+
+    # 3. Sampling with the proposals fixed, checked after each block on the whole chain.
+    converged = False
+    restarts = 0
+    previous_tau = None
+    while True:
+        sampler = _sampler(emcee, nwalkers, ndim, for_emcee,
+                           _sampling_moves(groups, evaluate, proposals), random)
+        main_steps = 0
+        block = settings.check_block
+        restart = False
+        while True:
+            block = min(block, settings.max_steps - steps)
+            if block <= 0:
+                break
+            state = advance(sampler, state, block)
+            main_steps += block
+            chains = by_ensemble(sampler.get_chain())  # (ensembles, steps, walkers, ndim)
+            tau = np.max([_autocorr_times(emcee, c) for c in chains], axis=0)
+            discard = min(int(math.ceil(settings.burn_in_taus * tau.max())), main_steps // 2)
+            thin = max(1, int(tau.min() // 2))
+            kept = chains[:, discard::thin]
+            stuck = stuck_walkers(by_ensemble(sampler.get_log_prob()[discard:]), ndim)
+            if stuck.any() and restarts < 2:
+                moved += _relocate(state, stuck, walkers, random)
+                restarts += 1
+                restart = True
+                break
+            ess_bulk, ess_tail, r_hat = _diagnose(kept)
+            long_enough = (main_steps - discard) > settings.tau_multiple * tau
+            stable = (previous_tau is not None
+                      and np.all(np.abs(tau - previous_tau) <= settings.tau_stability * tau))
+            previous_tau = tau
+            ok = ((ess_bulk >= settings.target_ess) & (r_hat < settings.max_r_hat)
+                  & long_enough & ~stuck.any())
+            if ok.all() and stable:
+                converged = True
+                break
+            if steps >= settings.max_steps:
+                break
+            # Enough steps for the slowest criterion, judged from the current estimates.
+            need_taus = settings.tau_multiple * tau.max() + discard
+            need_ess = main_steps * settings.target_ess / max(ess_bulk.min(), 1.0)
+            target = max(need_taus, need_ess) * 1.1
+            block = int(max(min(target, 4 * main_steps) - main_steps,
+                            settings.check_block // 2))
+        if not restart:
+            break
+        previous_tau = None
+
+    if main_steps == 0:
+        # the step cap ended the run before the sampling phase: report the exploration
+        sampler, main_steps = explorer, explorer.iteration
+        chains = by_ensemble(sampler.get_chain())
+        tau = np.max([_autocorr_times(emcee, c) for c in chains], axis=0)
+        discard, thin = main_steps // 2, 1
+        kept = chains[:, discard::thin]
+        ess_bulk, ess_tail, r_hat = _diagnose(kept)
+        stuck = np.zeros((groups, walkers), dtype=bool)
+    if not converged:
         if steps >= settings.max_steps:
             messages.append(
                 f"stopped at the step cap of {settings.max_steps} steps per "
                 "ensemble before every criterion held"
             )
-            break
-        # Enough steps for the slowest criterion, judged from the current estimates.
-        need_taus = settings.tau_multiple * tau.max() + burn_in
-        need_ess = steps * settings.target_ess / max(ess_bulk.min(), 1.0)
-        block = int(max(min(max(need_taus, need_ess) * 1.1, 4 * steps) - steps, 200))
-
+        if stuck.any():
+            messages.append(
+                f"{int(stuck.sum())} walkers stayed stuck far below the posterior mode "
+                "after two restarts"
+            )
     seconds = time.perf_counter() - started
     kept_steps = kept.shape[1]
     z = kept.transpose(0, 2, 1, 3).reshape(groups, walkers * kept_steps, ndim)
-    lp = by_ensemble(sampler.get_log_prob()[burn_in::thin])
+    lp = by_ensemble(sampler.get_log_prob()[discard::thin])
     log_prob_kept = lp.transpose(0, 2, 1).reshape(groups, -1)
     raw_blobs = sampler.get_blobs()
     if raw_blobs is None:
         blobs = np.zeros((groups, walkers * kept_steps, 0))
     else:
-        b = by_ensemble(np.asarray(raw_blobs, dtype=float)[burn_in::thin])
+        b = by_ensemble(np.asarray(raw_blobs, dtype=float)[discard::thin])
         b = b.reshape(groups, kept_steps, walkers, -1)
         blobs = b.transpose(0, 2, 1, 3).reshape(groups, walkers * kept_steps, -1)
     return SamplingRun(
@@ -244,7 +444,7 @@ def run_to_convergence(
         converged=converged,
         walkers=walkers,
         steps=steps,
-        burn_in=burn_in,
+        burn_in=steps - main_steps + discard,
         thin=thin,
         autocorr_time=tau,
         ess_bulk=ess_bulk,
@@ -253,4 +453,6 @@ def run_to_convergence(
         seconds=seconds,
         evaluations=evaluations,
         messages=messages,
+        moved_walkers=moved,
+        exploration_steps=exploration,
     )

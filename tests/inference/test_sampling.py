@@ -76,3 +76,65 @@ def test_ensembles_do_not_exchange_information():
         f"ensemble 0 reached {run.z[0].min():.3g}, ensemble 1 reached {run.z[1].max():.3g}")
     assert not run.converged, "two ensembles on different modes must not count as converged"
     assert run.r_hat[0] > 1.5, f"R-hat must flag the two modes; got {run.r_hat[0]}"
+
+
+def test_stuck_threshold_is_half_the_chi_square_quantile():
+    # Twice the log-density drop from a regular mode is chi-square(ndim) distributed
+    # (common practice; Wilks 1938, Ann. Math. Statist. 9:60), checked with scipy.stats.
+    from scipy import stats
+
+    from infer.inference.sampling import stuck_threshold
+
+    for ndim in (1, 3, 5, 12):
+        expected = max(10.0, stats.chi2.ppf(1 - 1e-6, ndim) / 2)
+        assert np.isclose(stuck_threshold(ndim), expected, rtol=1e-10), (
+            f"ndim {ndim}: threshold {stuck_threshold(ndim)} vs chi2 quantile / 2 {expected}")
+
+
+def test_stuck_walkers_are_those_far_below_their_own_ensemble():
+    from infer.inference.sampling import stuck_walkers
+
+    rng = np.random.default_rng(3)
+    lp = -0.5 * rng.chisquare(2, size=(2, 50, 10))  # (ensembles, steps, walkers)
+    lp[0, :, 3] -= 40.0
+    lp[1] -= 100.0  # a whole ensemble lower is not stuck relative to itself
+    stuck = stuck_walkers(lp, 2)
+    assert stuck[0, 3] and stuck.sum() == 1, f"only walker 3 of ensemble 0 is stuck: {stuck}"
+
+
+def _plateau(z):
+    # a standard normal mode, and far away behind a gap of zero density a flat plateau
+    # 40 log units lower: walkers that start there cannot reach the mode by ensemble moves
+    x = z[:, 0]
+    lp = np.where(np.abs(x) < 8, -0.5 * x**2, -np.inf)
+    lp = np.where((x >= 20) & (x <= 30), -40.0, lp)
+    return lp[:, None]
+
+
+def _some_on_the_plateau(rng, n):
+    x = rng.normal(size=n)
+    x[: max(1, n // 8)] = rng.uniform(21, 29, size=max(1, n // 8))
+    return x[:, None]
+
+
+def test_walkers_stuck_on_a_far_plateau_are_moved_not_averaged_in():
+    run = run_to_convergence(_plateau, _some_on_the_plateau, 1, np.random.default_rng(5))
+    flat = run.z.ravel()
+    # (a few escape by a lucky differential-evolution jump; the rest must be moved)
+    assert run.moved_walkers > 0, "6 walkers per ensemble started on the plateau; none moved"
+    assert np.all(flat < 8), (
+        f"{np.mean(flat >= 8):.2%} of draws sit on a plateau holding e^-40 of the mass")
+    assert run.converged, f"the run must converge once they are moved: {run.messages}"
+    assert abs(flat.mean()) < 5 / np.sqrt(run.ess_bulk[0]) and abs(flat.std() - 1) < 0.05, (
+        f"mean {flat.mean():.3f}, sd {flat.std():.3f}: the mode is a standard normal")
+
+
+def test_tau_must_be_stable_between_checks():
+    # The run never stops at its first check of the sampling phase: a stable
+    # autocorrelation time needs two estimates (the first block is check_block steps).
+    settings = SamplerSettings(target_ess=10, tau_multiple=1)
+    run = run_to_convergence(gaussian, start, 2, np.random.default_rng(1), settings)
+    assert run.converged
+    assert run.steps - run.exploration_steps >= 2 * settings.check_block, (
+        f"stopped after {run.steps - run.exploration_steps} sampling steps: at the first "
+        "check, before a second estimate of tau could confirm the first")
