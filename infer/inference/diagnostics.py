@@ -14,7 +14,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import ndtri
 
-__all__ = ["ess_bulk", "ess_tail", "r_hat"]
+__all__ = ["ess_bulk", "ess_tail", "ess_indicator", "r_hat"]
 
 
 def _split(x: np.ndarray) -> np.ndarray:
@@ -88,6 +88,15 @@ def ess_tail(x, prob: tuple[float, float] = (0.05, 0.95)) -> float:
         indicator = (split <= np.quantile(split, p)).astype(float)
         values.append(_ess(indicator))
     return float(min(values))
+
+
+def ess_indicator(x, threshold: float) -> float:
+    """Effective sample size of the indicator ``x <= threshold`` (split chains).
+
+    The Monte Carlo sd of the empirical distribution function at ``threshold`` is
+    ``sqrt(p (1 - p) / ess_indicator)`` (Vehtari et al. 2021, section 4.3).
+    """
+    return _ess((_split(x) <= threshold).astype(float))
 
 
 def _rhat(x: np.ndarray) -> float:
