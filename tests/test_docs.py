@@ -253,10 +253,10 @@ def test_every_command_and_option_is_documented():
 def test_every_exit_status_is_documented():
     """The exit statuses of infer.cli and of qhat check against the table in command-line.md."""
     from infer import cli
-    from infer.commands import check
+    from infer.commands import check, estimate
 
     statuses = {cli.EXIT_OK, cli.EXIT_INPUT, cli.EXIT_INCONSISTENT, check.EXIT_INCONSISTENT,
-                130}
+                estimate.EXIT_NOT_CONVERGED, 130}
     text = _read(DOCS / "command-line.md")
     missing = sorted(s for s in statuses if f"\n| {s} |" not in text)
     assert not missing, f"exit statuses without a row in docs/command-line.md: {missing}"

@@ -7,7 +7,12 @@ from pathlib import Path
 
 from infer.commands import options as checks
 
-__all__ = ["add_arguments", "run", "progress_printer", "default_out"]
+__all__ = ["EXIT_NOT_CONVERGED", "add_arguments", "run", "progress_printer", "default_out",
+           "print_warnings"]
+
+#: the estimate finished and its folder is written, but it did not converge or an exact
+#: posterior disagrees with it (docs/command-line.md, 'Exit status')
+EXIT_NOT_CONVERGED = 4
 
 
 def add_arguments(parser) -> None:
@@ -20,7 +25,12 @@ def add_arguments(parser) -> None:
                         help="random seed, a whole number >= 0 (overrides [sampler] seed)")
     parser.add_argument("--force", action="store_true", help="replace an existing folder")
     parser.add_argument("--json", action="store_true", help="print summary.json to stdout")
-    parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    parser.add_argument("--quiet", action="store_true",
+                        help="no progress on stderr (warnings are still printed)")
+    parser.epilog = ("Exit status 0 when done, 2 for bad input, 4 when the report is written "
+                     "but the sampler did not converge or an exact check disagrees. Each "
+                     "warning is a line 'qhat: warning: ...' on stderr, with or without "
+                     "--quiet and --json.")
 
 
 def progress_printer(quiet: bool):
@@ -33,6 +43,15 @@ def progress_printer(quiet: bool):
               end="", file=sys.stderr, flush=True)
 
     return show
+
+
+def print_warnings(summary: dict, stream=None) -> None:
+    """One ``qhat: warning: ...`` line on stderr for each warning of the estimate."""
+    from infer.jobs.estimate.warnings import estimate_warnings
+
+    stream = stream or sys.stderr
+    for warning in estimate_warnings(summary):
+        print(f"qhat: warning: {warning}", file=stream)
 
 
 def default_out(study_path: str) -> Path:
@@ -51,6 +70,8 @@ def run(args) -> int:
     # matplotlib is imported in a second process while this one reads the study and samples
     with terminate_as_interrupt(), PlotProcess() as plotter:
         result, out = _estimate_into_folder(args, plotter)
+    # warnings first: a closed stdout below must not swallow them
+    print_warnings(result.summary)
     if args.json:
         from infer.reporting.jsonout import dumps
 
@@ -59,7 +80,9 @@ def run(args) -> int:
         from infer.reporting.markdown import terminal_summary
 
         print(terminal_summary(result, out))
-    return 0
+    from infer.jobs.estimate.warnings import read_with_care
+
+    return EXIT_NOT_CONVERGED if read_with_care(result.summary) else 0
 
 
 def _estimate_into_folder(args, plotter):

@@ -4,8 +4,8 @@ The log posterior density in unconstrained coordinates z (``Model.log_posterior`
 integrated on nested grids:
 
 1. **Locate.** Axis-aligned coarse passes over the prior's range (its 1e-10 and
-   1 - 1e-10 quantiles; or, given the sampler's draws, their range widened threefold
-   on each side, within the prior's) zoom onto the box outside which each axis' coarse marginal
+   1 - 1e-10 quantiles, extended, given the sampler's draws, to their range widened by
+   its own width on each side, which may reach into the prior's far tail) zoom onto the box outside which each axis' coarse marginal
    leaves less than 1e-9 of the mass on either side (a box by density drop would be
    far too wide for the exponential tails of a prior-dominated direction).
 2. **Inner axis.** The parameter whose marginal is wanted is the inner axis; given
@@ -228,9 +228,11 @@ def _locate(model, hint=None):
         lo, hi = prior.quantile(np.array([_TAIL, 1.0 - _TAIL]))
         lo, hi = (float(v) for v in prior.to_unconstrained(np.array([lo, hi])))
         if hint is not None:
-            # start from the sampled range, three times as wide on each side
+            # reach past the prior's quantiles to the sampled range widened by its own
+            # width on each side: data can put the posterior in the prior's far tail
+            # (a log-normal prior's 1 - 1e-10 quantile is only 6.4 sd out)
             a, b = float(np.min(hint[:, j])), float(np.max(hint[:, j]))
-            lo, hi = max(lo, a - 3 * (b - a)), min(hi, b + 3 * (b - a))
+            lo, hi = min(lo, a - (b - a)), max(hi, b + (b - a))
         axes.append(np.linspace(lo, hi, points))
     evaluations = 0
     for _ in range(4):
@@ -441,10 +443,9 @@ def exact_posterior(model, interval: float = 0.95, tolerance: float = 1e-3,
         Cap on posterior evaluations (default :data:`EVALUATION_CAP`, or
         :data:`DRIFT_EVALUATION_CAP` under the drift model).
     hint : ndarray (n, ndim), optional
-        Draws in unconstrained coordinates (the sampler's): the coarse search starts from
-        their range widened threefold on each side instead of the prior's whole range, so
-        a posterior far narrower than its prior is not missed between coarse nodes. The
-        integration itself never uses them.
+        Draws in unconstrained coordinates (the sampler's): the coarse search box is
+        extended to their range widened by its own width on each side, so a posterior
+        in the prior's far tail is not cut off. The integration never uses them.
 
     Returns
     -------

@@ -3,6 +3,12 @@
 from __future__ import annotations
 
 from infer.core.text import CAUTION, CAUTION_LINE, fmt
+from infer.jobs.estimate.warnings import (
+    POOR_FIT_BELOW,
+    estimate_warnings,
+    poorly_reproduced,
+    read_with_care,
+)
 
 __all__ = ["report_markdown", "terminal_summary"]
 
@@ -42,13 +48,15 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
     s = result.summary
     study = result.study
     pct = f"{100 * s['interval']:g} %"
-    lines = [f"# {study.title}", "", CAUTION, ""]
+    care = read_with_care(s)
+    lines = [f"**{care[0]} — read with care:** {care[1]}", ""] if care else []
+    lines += [f"# {study.title}", "", CAUTION, ""]
     diag = s["diagnostics"]
-    if not diag["converged"]:
-        lines += ["> **WARNING: THE SAMPLER DID NOT CONVERGE.** "
-                  + " ".join(diag["messages"])
-                  + " The intervals below are not trustworthy; rerun with a larger "
-                  "`max_steps` in `[sampler]`.", ""]
+    warnings = estimate_warnings(s)
+    if warnings:
+        lines += ["> **Warnings** (`qhat estimate` prints each on stderr):", ">"]
+        lines += [f"> - {w[0].upper() + w[1:]}." for w in warnings]
+        lines += [""]
     lines += ["## Data and assumptions", "",
               f"- Inheritance: **{study.inheritance}**; model: **{study.model}** "
               + ("(deterministic mutation-selection balance, infinite population)"
@@ -99,14 +107,16 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
 
     if "drift_comparison" in s:
         c = s["drift_comparison"]
-        lines += ["", "## Drift against the deterministic balance", "", c["statement"], ""]
+        lines += ["", "## Drift against the deterministic balance", "", c["statement"]]
+        # only the parameters free under both models are compared (no Ne in the balance)
         rows = [[n, fmt(c["drift"][n]["median"]),
                  f"{fmt(c['drift'][n]['lower'])} – {fmt(c['drift'][n]['upper'])}",
                  fmt(c["deterministic"][n]["median"]),
                  f"{fmt(c['deterministic'][n]['lower'])} – {fmt(c['deterministic'][n]['upper'])}"]
-                for n in result.free]
-        lines += _table(["parameter", "drift median", f"drift {pct}", "deterministic median",
-                         f"deterministic {pct}"], rows)
+                for n in c["deterministic"]]
+        if rows:
+            lines += [""] + _table(["parameter", "drift median", f"drift {pct}",
+                                    "deterministic median", f"deterministic {pct}"], rows)
 
     lines += ["", "## Diagnostics", ""]
     taus = ", ".join(f"{k} {v:.1f}" for k, v in diag["autocorr_time"].items())
@@ -119,12 +129,19 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
               f"- Integrated autocorrelation time (steps): {taus}."]
     if "grid" in s:
         g = s["grid"]
-        worst = {k: max(v.values()) for k, v in g["parameters"].items()}
-        verdict = "agrees with" if g["agrees"] else "DISAGREES with"
-        lines.append(f"- Exact cross-check: the sampler {verdict} the quadrature posterior "
-                     f"({g['evaluations']} grid evaluations); largest relative difference of "
-                     "median or interval end: "
-                     + ", ".join(f"{k} {100 * v:.2f} %" for k, v in worst.items()) + ".")
+        worst = {k: max(e["relative_difference"] for e in v.values())
+                 for k, v in g["parameters"].items()}
+        verified = diag.get("verified")
+        if verified is None:
+            verdict = "could not be checked against"
+        else:
+            verdict = "agrees with" if verified else "DISAGREES with"
+        lines.append(f"- Exact cross-check: the sampler {verdict} the exact posterior "
+                     f"(nested quadrature, {g['evaluations']:,} evaluations, "
+                     f"{'settled' if g['settled'] else 'NOT settled'}); largest relative "
+                     "difference of median or interval end: "
+                     + ", ".join(f"{k} {100 * v:.2f} %" for k, v in worst.items())
+                     + ". Agreement is judged in probability, within Monte Carlo error.")
     if timing:
         lines.append(f"- Wall time: {timing['seconds']:.1f} s "
                      f"(sampling {timing['sampling_seconds']:.1f} s).")
@@ -135,11 +152,11 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
             for i, p in enumerate(s["predictive"])]
     lines += _table(["#", "observation", "statistic", "observed", "expected (median)",
                      "p-value"], rows)
-    bad = [p["label"] for p in s["predictive"] if p["p_value"] is not None
-           and p["p_value"] < 0.01]
-    lines += ["", ("Observations the model reproduces poorly (p < 0.01): " + ", ".join(bad)
-                   + ". Balance may not explain them.") if bad else
-              "Every observation is within what the fitted model reproduces (p >= 0.01)."]
+    bad = [p["label"] for p in poorly_reproduced(s)]
+    lines += ["", (f"Observations the model reproduces poorly (p < {POOR_FIT_BELOW:g}): "
+                   + ", ".join(bad) + ". Balance may not explain them.") if bad else
+              "Every observation is within what the fitted model reproduces "
+              f"(p >= {POOR_FIT_BELOW:g})."]
 
     lines += ["", "## Plots", ""]
     titles = {"marginals": "Prior and posterior marginals", "pairs": "Pairs",

@@ -28,7 +28,7 @@ from hypothesis import strategies as st
 
 import infer.reporting.plot_process
 from infer import cli
-from infer.commands.estimate import default_out
+from infer.commands.estimate import EXIT_NOT_CONVERGED, default_out
 from infer.errors import InputError
 from infer.reporting import folder as folder_module
 from infer.reporting.folder import atomic_folder, safe_name, terminate_as_interrupt
@@ -37,6 +37,9 @@ INTERRUPTED = "qhat: interrupted; nothing was written"
 #: 128 + SIGINT (2): the shell's status for a run ended by Ctrl-C (POSIX shell convention,
 #: common practice), which the CLI returns for SIGINT and SIGTERM alike
 EXIT_INTERRUPTED = 130
+#: FAST stops at its step cap: a finished fit exits 0, or 4 when not converged
+#: (docs/command-line.md, 'Exit status')
+FITTED = (0, EXIT_NOT_CONVERGED)
 
 #: a few seconds of fitting: one free parameter, a small sampler, a step cap
 FAST = """\
@@ -410,7 +413,8 @@ def two_runs(tmp_path_factory):
         write_study(work / "study.toml", title="../../x")
         done = run_qhat("estimate", "study.toml", *extra, "--quiet", cwd=work,
                         env={"PYTHONHASHSEED": hash_seed})
-        assert done.returncode == 0, f"run {name} (PYTHONHASHSEED={hash_seed}) failed; {done}"
+        assert done.returncode in FITTED, (
+            f"run {name} (PYTHONHASHSEED={hash_seed}) failed; {done}")
         runs[name] = work
     return root, runs
 
@@ -454,7 +458,7 @@ def test_absolute_title_and_odd_study_names_stay_under_reports(tmp_path, monkeyp
     monkeypatch.chdir(tmp_path)
     write_study(tmp_path / "..toml", title="/etc/passwd")
     status, _, err = call_qhat(["estimate", "..toml", "--quiet"], capsys)
-    assert status == 0, f"a study named '..toml' titled '/etc/passwd' must fit; {err}"
+    assert status in FITTED, f"a study named '..toml' titled '/etc/passwd' must fit; {err}"
     files = tree(tmp_path)
     stray = [f for f in files
              if not (f in ("..toml", "reports", "reports/study") or f.startswith("reports/study/"))]
@@ -487,9 +491,11 @@ def test_title_with_dollar_signs_is_plain_text(tmp_path, monkeypatch, capsys):
     monkeypatch.chdir(tmp_path)
     write_study(tmp_path / "study.toml", title="Cost $x^$ per test")
     status, _, err = call_qhat(["estimate", "study.toml", "--out", "report", "--quiet"], capsys)
-    assert status == 0, f"a title with dollar signs must fit; {err}"
+    assert status in FITTED, f"a title with dollar signs must fit; {err}"
     text = (tmp_path / "report" / "report.md").read_text()
-    assert text.startswith("# Cost $x^$ per test\n"), (
+    # a run that did not converge opens with one "read with care" line above the title
+    heading = next(line for line in text.splitlines() if line.startswith("# "))
+    assert heading == "# Cost $x^$ per test", (
         f"report.md must open with the title as written; starts {text[:60]!r}")
     summary = json.loads((tmp_path / "report" / "summary.json").read_text())
     assert summary["title"] == "Cost $x^$ per test", f"summary.json title {summary['title']!r}"

@@ -15,8 +15,10 @@ from infer.jobs.estimate.results import EstimateResult, summarise
 from infer.inference.sampling import SamplerSettings, run_to_convergence
 from infer.model.posterior import Model
 
-__all__ = ["DEFAULT_SEED", "estimate", "sampler_settings"]
+__all__ = ["DEFAULT_SEED", "MAX_EXACT_DIMENSIONS", "estimate", "sampler_settings"]
 
+#: free parameters up to which the exact posterior (nested quadrature) checks the sampler
+MAX_EXACT_DIMENSIONS = 3
 #: seed used when neither the command line nor the study gives one (same study, same report)
 DEFAULT_SEED = 20261202
 
@@ -43,8 +45,10 @@ def estimate(study, seed: int | None = None, settings: SamplerSettings | None = 
     progress : callable, optional
         ``progress(steps, max_steps)`` after each block of steps.
     grid : bool
-        Compute the exact quadrature cross-check when there are one or two free
-        parameters.
+        Compute the exact quadrature cross-check when there are at most
+        :data:`MAX_EXACT_DIMENSIONS` free parameters; ``summary["diagnostics"]["verified"]``
+        is then True or False (None without it), and a disagreement makes the run not
+        converged.
 
     Returns
     -------
@@ -60,20 +64,18 @@ def estimate(study, seed: int | None = None, settings: SamplerSettings | None = 
     settings = settings or sampler_settings(study)
     run = run_to_convergence(model, model.initial_points, model.ndim, rng, settings, progress)
     grid_result, grid_seconds = None, 0.0
-    if grid and model.ndim <= 2:
-        from infer.inference.grid import grid_posterior
+    if grid and model.ndim <= MAX_EXACT_DIMENSIONS:
+        from infer.inference.exact import exact_posterior
 
         t0 = time.perf_counter()
-        # Wright's density costs a quadrature per row: a coarser grid keeps the check cheap.
-        points = 101 if study.model == "drift" else None
-        grid_result = grid_posterior(model, study.interval, points=points)
+        grid_result = exact_posterior(model, study.interval, hint=run.z.reshape(-1, model.ndim))
         grid_seconds = time.perf_counter() - t0
     result = summarise(model, run, rng, grid=grid_result, seed=seed)
     if study.model == "drift":
         from infer.jobs.estimate.drift_comparison import compare_drift_with_deterministic
 
         result.summary["drift_comparison"] = compare_drift_with_deterministic(
-            study, result.posterior, rng)
+            study, result.posterior, rng, settings=settings)
     result.log_prob = run.log_prob
     timing = {"seconds": time.perf_counter() - started, "sampling_seconds": run.seconds,
               "grid_seconds": grid_seconds}

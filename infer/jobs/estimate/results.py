@@ -64,9 +64,9 @@ class EstimateResult:
         diagnostics = self.summary["diagnostics"]
         verdict = ("converged" if diagnostics["converged"]
                    else "NOT CONVERGED: " + " ".join(diagnostics["messages"]))
-        if "grid" in self.summary:
-            agrees = self.summary["grid"]["agrees"]
-            verdict += "; exact cross-check " + ("agrees" if agrees else "DISAGREES")
+        verified = diagnostics.get("verified")
+        if verified is not None:
+            verdict += "; exact posterior " + ("agrees" if verified else "DISAGREES")
         return verdict
 
     def _fixed_text(self) -> str:
@@ -304,13 +304,24 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     statements = identifiability(model.free, posterior, prior, parameters, frequency_only,
                                  study.inheritance, recessive)
 
+    messages = list(run.messages)
+    verification = None
+    if grid is not None:
+        from infer.inference.exact import verify_draws
+
+        verification = verify_draws(grid, posterior, interval)
+        messages += verification["messages"]
+    verified = None if verification is None else verification["verified"]
     diagnostics = {
-        "converged": bool(run.converged), "walkers": run.walkers,
+        # an exact posterior that disagrees overrules the sampler's own criteria
+        "converged": bool(run.converged) and verified is not False,
+        "verified": verified, "walkers": run.walkers,
         "ensembles": int(chains), "steps": run.steps, "burn_in": run.burn_in,
         "thin": run.thin, "draws": int(chains * draws),
         "autocorr_time": {n: float(t) for n, t in zip(model.free, run.autocorr_time,
                                                       strict=True)},
-        "evaluations": int(run.evaluations), "messages": list(run.messages),
+        "evaluations": int(run.evaluations), "exploration_steps": int(run.exploration_steps),
+        "moved_walkers": int(run.moved_walkers), "messages": messages,
     }
     summary = {
         "title": study.title, "interval": interval, "inheritance": study.inheritance,
@@ -318,11 +329,10 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
         "parameters": parameters, "derived": derived_summary, "diagnostics": diagnostics,
         "predictive": predictive, "identifiability": statements,
     }
-    if grid is not None:
-        from infer.inference.grid import compare_with_draws
-
+    if verification is not None:
         summary["grid"] = {"quantiles": grid.quantiles, "evaluations": grid.points,
-                           **compare_with_draws(grid, posterior, interval)}
+                           "settled": bool(grid.settled), "agrees": verified is True,
+                           "parameters": verification["parameters"]}
     ll = run.blobs
     trace_params, _ = model.to_parameters(run.trace.reshape(-1, model.ndim))
     trace_walkers = {n: trace_params[n].reshape(run.trace.shape[:3]) for n in model.free}
