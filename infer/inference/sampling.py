@@ -213,8 +213,15 @@ def _relocate(state, stuck: np.ndarray, walkers: int, random) -> int:
 
 
 def _autocorr_times(emcee, chain: np.ndarray) -> np.ndarray:
-    """Integrated autocorrelation time per parameter of one ensemble's (steps, walkers, ndim)."""
-    return np.asarray(emcee.autocorr.integrated_time(chain, tol=0, quiet=True), dtype=float)
+    """Integrated autocorrelation time per parameter of one ensemble's (steps, walkers, ndim).
+
+    A walker that has not moved at all makes emcee's estimate NaN; the chain's length is
+    used then, so that the run continues rather than stopping on an unknown tau.
+    """
+    steps = chain.shape[0]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        tau = np.asarray(emcee.autocorr.integrated_time(chain, tol=0, quiet=True), dtype=float)
+    return np.where(np.isfinite(tau), tau, float(steps))
 
 
 def _diagnose(kept: np.ndarray):

@@ -138,3 +138,15 @@ def test_tau_must_be_stable_between_checks():
     assert run.steps - run.exploration_steps >= 2 * settings.check_block, (
         f"stopped after {run.steps - run.exploration_steps} sampling steps: at the first "
         "check, before a second estimate of tau could confirm the first")
+
+
+def test_a_walker_that_never_moves_does_not_crash_the_run():
+    # One coordinate of the target is a point mass for walkers that start on it: every
+    # proposal off it is refused, emcee's tau estimate is then NaN (0/0 autocorrelation).
+    from infer.inference.sampling import _autocorr_times
+    from infer.inference.emcee_loader import load_emcee
+
+    chain = np.random.default_rng(1).normal(size=(200, 8, 2))
+    chain[:, 3, 1] = 0.5  # walker 3 never moves in coordinate 1
+    tau = _autocorr_times(load_emcee(), chain)
+    assert np.all(np.isfinite(tau)), f"tau must stay finite: {tau}"

@@ -346,6 +346,17 @@ def test_cli_writes_the_report_folder(tmp_path, capsys):
     assert _leftovers(tmp_path) == [], f"left behind: {_leftovers(tmp_path)}"
 
 
+def _close(a, b) -> bool:
+    """Equal structures, floats within a relative 1e-10."""
+    if isinstance(a, dict) and isinstance(b, dict):
+        return a.keys() == b.keys() and all(_close(a[k], b[k]) for k in a)
+    if isinstance(a, list) and isinstance(b, list):
+        return len(a) == len(b) and all(_close(x, y) for x, y in zip(a, b, strict=True))
+    if isinstance(a, float) and isinstance(b, float):
+        return math.isclose(a, b, rel_tol=1e-10, abs_tol=1e-300)
+    return a == b
+
+
 def _comparable(folder):
     summary = json.loads((Path(folder) / "summary.json").read_text())
     for key in ("timings", "execution"):
@@ -392,7 +403,13 @@ def test_dask_local_cluster_equals_local_run(tmp_path):
         assert main(["batch", str(source), "--out", str(remote), "--prior", "empirical",
                      "--quiet", "--chunk-size", "100", "--scheduler",
                      cluster.scheduler_address]) == 0, "the dask run failed"
-    assert _comparable(local) == _comparable(remote), "dask results differ from the local run"
+    local_csv, local_summary = _comparable(local)
+    remote_csv, remote_summary = _comparable(remote)
+    assert local_csv == remote_csv, "dask loci.csv differs from the local run"
+    # The prior fit's curvature goes through a BLAS matrix product, and a dask worker
+    # (one thread) may round its last bit differently from a multi-threaded BLAS here.
+    assert _close(local_summary, remote_summary), (
+        "dask summary.json differs from the local run beyond the last digits")
 
 
 HEADER = "locus,observed,sampled,mu,mu_lower,mu_upper\n"
