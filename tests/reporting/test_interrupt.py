@@ -85,9 +85,16 @@ def tree(root: Path) -> list[str]:
     return sorted(str(p.relative_to(root)) for p in root.rglob("*"))
 
 
+def _default_sigint():
+    # A shell without job control starts background commands with SIGINT ignored, and
+    # Python then never raises KeyboardInterrupt: these tests send SIGINT on purpose.
+    signal.signal(signal.SIGINT, signal.SIG_DFL)
+
+
 def start(args, cwd, stderr, env=None):
     return subprocess.Popen(qhat_command(*args), cwd=cwd, stdin=subprocess.DEVNULL,
-                            stdout=subprocess.PIPE, stderr=stderr, env=env)
+                            stdout=subprocess.PIPE, stderr=stderr, env=env,
+                            preexec_fn=_default_sigint)
 
 
 def read_until(fd: int, marker: bytes, process, timeout: float = 300.0) -> bytes:
