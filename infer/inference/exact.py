@@ -5,7 +5,8 @@ integrated on nested grids:
 
 1. **Locate.** Axis-aligned coarse passes over the prior's range (its 1e-10 and
    1 - 1e-10 quantiles, extended, given the sampler's draws, to their range widened by
-   its own width on each side, which may reach into the prior's far tail) zoom onto the box outside which each axis' coarse marginal
+   its own width on each side, which may reach into the prior's far tail) zoom onto the
+   box outside which each axis' coarse marginal
    leaves less than 1e-9 of the mass on either side (a box by density drop would be
    far too wide for the exponential tails of a prior-dominated direction).
 2. **Inner axis.** The parameter whose marginal is wanted is the inner axis; given
@@ -95,13 +96,12 @@ class ExactPosterior:
     change: float
     levels: list = field(default_factory=list)
     z_axes: dict[str, np.ndarray] | None = None
-    z_cdf: dict[str, np.ndarray] | None = None
     priors: dict | None = None
 
     def cdf_at(self, name: str, value: float) -> float:
         """Marginal posterior probability that ``name`` is at most ``value``."""
         z = float(np.asarray(self.priors[name].to_unconstrained(np.array([value])))[0])
-        return float(np.interp(z, self.z_axes[name], self.z_cdf[name], left=0.0, right=1.0))
+        return float(np.interp(z, self.z_axes[name], self.cdf[name], left=0.0, right=1.0))
 
 
 def _evaluate(model, mesh: np.ndarray, chunk: int = 50_000) -> np.ndarray:
@@ -126,7 +126,7 @@ def _node_weights(axis: np.ndarray) -> np.ndarray:
 
 
 def _placed_nodes(axis: np.ndarray, cdf: np.ndarray, lo: float, hi: float, n: int):
-    """n nodes on [lo, hi], half placed by the coarse marginal cdf, half evenly.
+    """Nodes (n of them) on [lo, hi], half placed by the coarse marginal cdf, half evenly.
 
     Nodes are z = G^-1(i / (n - 1)) with G = (F + (z - lo) / (hi - lo)) / 2: dense where
     the mass is, never sparse elsewhere (G is strictly increasing).
@@ -272,14 +272,17 @@ def _scan_range(scan_axis: np.ndarray, lp_scan: np.ndarray):
     near = lp_scan >= row_max[:, None] - _DROP
     first = np.where(alive, np.argmax(near, axis=1), 0)
     last = np.where(alive, n - 1 - np.argmax(near[:, ::-1], axis=1), 1)
-    return row_max, alive, scan_axis[np.maximum(first - 1, 0)], scan_axis[np.minimum(last + 1, n - 1)]
+    lo = scan_axis[np.maximum(first - 1, 0)]
+    hi = scan_axis[np.minimum(last + 1, n - 1)]
+    return row_max, alive, lo, hi
 
 
 def _nested_rows(model, outer: list[int], inner: int, nodes, outer_nodes, points: int,
                  scan_points: int):
     """Rows (a, b) of a three-parameter pass and their quadrature weights.
 
-    The outermost axis a gets sinh nodes from its coarse marginal; for each of them the middle axis b gets sinh
+    The outermost axis a gets sinh nodes from its coarse marginal; for each of them the
+    middle axis b gets sinh
     nodes of its own, from a scan over (b, inner) whose log-sum over the inner axis is the
     profile of b. Returns (rows (n, 2) of (a, b) values, weights (n,), evaluations).
     """
@@ -321,7 +324,7 @@ def _level(model, coarse, inner: int, outer_points: int, scan_points: int, fine_
         return _placed_nodes(axis, coarse_cdfs[j], axis[0], axis[-1], n)
 
     def outer_nodes(j, n):
-        """sinh nodes on axis j from its coarse marginal, and their quadrature weights."""
+        """Sinh nodes on axis j from its coarse marginal, and their quadrature weights."""
         axis = coarse_axes[j]
         with np.errstate(divide="ignore"):
             log_density = np.log(np.maximum(np.gradient(coarse_cdfs[j], axis), 0.0))
@@ -462,7 +465,7 @@ def exact_posterior(model, interval: float = 0.95, tolerance: float = 1e-3,
         model, None if hint is None else np.asarray(hint, dtype=float).reshape(-1, ndim))
     budget = (max_evaluations - evaluations) / ndim
     names = list(model.free)
-    axes, densities, cdfs, z_out, zc_out, priors, quantiles = {}, {}, {}, {}, {}, {}, {}
+    axes, densities, cdfs, z_out, priors, quantiles = {}, {}, {}, {}, {}, {}
     levels, settled, change = [], True, 0.0
     for j, (name, prior) in enumerate(zip(names, model.priors, strict=True)):
         # each parameter is integrated innermost, where a thin ridge costs nothing
@@ -488,15 +491,15 @@ def exact_posterior(model, interval: float = 0.95, tolerance: float = 1e-3,
         x, log_jac = prior.from_unconstrained(z)
         axes[name] = np.asarray(x, dtype=float)
         densities[name] = np.gradient(cdf, z) * np.exp(-np.asarray(log_jac, dtype=float))
-        cdfs[name], z_out[name], zc_out[name], priors[name] = cdf, z, cdf, prior
+        cdfs[name], z_out[name], priors[name] = cdf, z, prior
         quantiles[name] = q
     return ExactPosterior(names, axes, densities, cdfs, quantiles, evaluations, settled,
-                          change, levels, z_out, zc_out, priors)
+                          change, levels, z_out, priors)
 
 
 def verify_draws(exact: ExactPosterior, draws: dict[str, np.ndarray], interval: float,
                  z: float = 4.0, allowance: float = 0.002) -> dict:
-    """Do sampled quantiles agree with the exact posterior within Monte Carlo error?
+    """Judge whether sampled quantiles agree with the exact posterior (Monte Carlo error).
 
     Parameters
     ----------

@@ -243,7 +243,7 @@ def _fit_proposals(chains: np.ndarray, rng: np.random.Generator):
     """One mixture per ensemble from its own draws (groups, steps, walkers, ndim), or None."""
     from infer.inference.proposal import fit_mixture
 
-    groups, _, _, ndim = chains.shape
+    ndim = chains.shape[-1]
     try:
         return [fit_mixture(c.reshape(-1, ndim), rng) for c in chains]
     except (ValueError, np.linalg.LinAlgError):
