@@ -52,3 +52,25 @@ def test_rhat_flags_chains_that_disagree():
     x[0] += 1.0  # one chain stuck elsewhere
     stuck = diagnostics.r_hat(x)
     assert stuck > 1.05, f"a chain shifted by 1 sd must push R-hat above 1.05; got {stuck}"
+
+
+@pytest.mark.parametrize("p", [0.025, 0.5, 0.975])
+def test_indicator_ess_matches_arviz_quantile_ess(p):
+    # Independent implementation: arviz-stats' ESS "quantile" method, the ESS of the
+    # indicator x <= quantile over split chains (Vehtari et al. 2021, Bayesian Analysis
+    # 16:667, section 4.3), here at the pooled p quantile of an AR(1) chain.
+    az = pytest.importorskip("arviz")
+    x = ar1(np.random.default_rng(4), 0.7)
+    ours = diagnostics.ess_indicator(x, float(np.quantile(x, p)))
+    theirs = float(az.ess(x, method="quantile", prob=p))
+    assert ours == pytest.approx(theirs, rel=1e-6), (
+        f"AR(1) phi = 0.7, p = {p}: indicator ESS {ours:.6g}, arviz {theirs:.6g}")
+
+
+def test_indicator_ess_of_independent_draws_is_their_number():
+    # For independent draws the indicator is a Bernoulli sequence without
+    # autocorrelation, so its ESS is the number of draws (common practice); 10 % allows
+    # the estimator's own noise at 16,000 draws.
+    x = np.random.default_rng(8).normal(size=(4, 4000))
+    ess = diagnostics.ess_indicator(x, 1.96)
+    assert ess == pytest.approx(x.size, rel=0.1), f"iid N(0, 1): indicator ESS {ess:.0f}"

@@ -23,7 +23,7 @@ import pytest
 
 from infer.core.balance import q_hat
 from infer.files.study import parse_study
-from infer.inference.grid import grid_posterior
+from infer.inference.exact import exact_posterior
 from infer.inference.sampling import SamplerSettings, run_to_convergence
 from infer.model.posterior import Model
 
@@ -102,7 +102,7 @@ def test_intervals_cover_the_truth_for_every_kind(kind, free, truth):
         parameters[free] = LOG_MU if free == "mu" else {"prior": "uniform", "low": 0,
                                                         "high": 1}
         model = Model(_study(parameters, [simulate(kind, truth, rng)]))
-        q = grid_posterior(model, 0.95).quantiles[free]
+        q = exact_posterior(model, 0.95).quantiles[free]
         covered += q["lower"] <= truth[free] <= q["upper"]
     # 95 % intervals cover ~95 of 100; P(covered < 90) = 1.1 % for a correct method
     # (binomial(100, 0.95) tail, scipy.stats.binom.cdf(89, 100, 0.95))

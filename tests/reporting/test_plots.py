@@ -23,7 +23,7 @@ import pytest  # noqa: E402
 from scipy import stats  # noqa: E402
 
 from infer.core.balance import q_hat  # noqa: E402
-from infer.inference.grid import GridPosterior  # noqa: E402
+from infer.inference.exact import ExactPosterior  # noqa: E402
 from infer.reporting.plots import figures as plots  # noqa: E402
 from infer.reporting.plots.common import axis_label  # noqa: E402
 from infer.reporting.plots.save import plain_text  # noqa: E402
@@ -116,7 +116,7 @@ def _make_result(free, *, chains=4, draws=400, walkers=8, grid=True, nan_share=0
                 marginal[name] = stats.norm.pdf(x, m, sd)
             axes[name] = x
             quantiles[name] = {"median": m, "lower": m - 1.96 * sd, "upper": m + 1.96 * sd}
-        grid_part = GridPosterior(list(free), axes, marginal, quantiles, points=301)
+        grid_part = ExactPosterior(list(free), axes, marginal, quantiles, points=301)
     return EstimateResult(
         study=study, free=list(free), posterior=posterior, prior=prior, derived=derived,
         trace_walkers=trace_walkers, burn_in=200,

@@ -18,10 +18,7 @@ from infer.core.text import fmt
 from infer.files.claim import WIDE_PRIORS, Claim
 from infer.model.priors.parsing import SUPPORT
 
-__all__ = ["implied_intervals", "DRIFT_GRID_POINTS"]
-
-#: grid points per pass for the drift model (each costs a quadrature of Wright's density)
-DRIFT_GRID_POINTS = 401
+__all__ = ["implied_intervals"]
 
 
 def _evidence(grid, name: str, claimed: float, level: float) -> tuple[float, tuple]:
@@ -75,12 +72,11 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
         the evidence value of the claimed value.
     findings : list of Finding
     """
-    from infer.inference.grid import grid_posterior
+    from infer.inference.exact import exact_posterior
     from infer.model.posterior import Model
 
     study, level, model = claim.study, claim.study.interval, claim.study.model
     out, findings = {}, []
-    points = DRIFT_GRID_POINTS if model == "drift" else None
     for name in ("mu", "s", "h"):
         others = claimed_text(claim, [n for n in ("mu", "s", "h") if n != name])
         used = [o for o in study.observations if name in o.parameters_used(model)]
@@ -91,7 +87,7 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
         single = replace(study, parameters={**study.parameters, name: prior}, observations=used)
         claimed = claim.values[name]
         try:
-            grid = grid_posterior(Model(single), level, points=points)
+            grid = exact_posterior(Model(single), level)
         except ValueError:
             out[name] = {"informed": True, "possible": False, "prior": prior.describe()}
             findings.append(Finding(

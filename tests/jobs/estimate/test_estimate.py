@@ -1,8 +1,8 @@
 """The estimate pipeline: sampler against the exact grid, classic estimators in the
 large-sample limit, and the determinism of the summary.
 
-References: the exact quadrature posterior (infer.inference.grid, itself checked against
-scipy.stats closed forms in tests/inference/test_grid.py); the direct and indirect
+References: the exact quadrature posterior (infer.inference.exact, itself checked against
+scipy.stats closed forms in tests/inference/test_exact.py); the direct and indirect
 (Haldane) estimators of the mutation rate (Haldane 1935, J. Genet. 31:317; Vogel &
 Motulsky, *Human Genetics*; REFERENCES.md).
 """
@@ -12,7 +12,7 @@ import pytest
 
 from infer.jobs.estimate.pipeline import estimate
 from infer.files.study import parse_study
-from infer.inference.grid import compare_with_draws, grid_posterior
+from infer.inference.exact import exact_posterior, verify_draws
 from infer.model.posterior import Model
 
 LOG_MU = {"prior": "log-uniform", "low": 1e-8, "high": 1e-3}
@@ -98,12 +98,12 @@ def test_sampler_matches_grid_every_kind(name):
     result = _fit(name)
     diagnostics = result.summary["diagnostics"]
     assert diagnostics["converged"], f"{name}: the sampler did not converge: {diagnostics}"
-    check = compare_with_draws(result.grid, result.posterior, 0.95)
-    assert check["agrees"], f"{name}: sampler vs the exact grid (2 % / 5 %): {check}"
+    check = verify_draws(result.grid, result.posterior, 0.95)
+    assert check["verified"], f"{name}: sampler vs the exact posterior: {check['messages']}"
 
 
 def _median(st, name):
-    return grid_posterior(Model(st)).quantiles[name]["median"]
+    return exact_posterior(Model(st)).quantiles[name]["median"]
 
 
 def test_direct_method_large_sample():
