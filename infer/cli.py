@@ -10,7 +10,9 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import re
+import signal
 import sys
 
 __all__ = ["main", "COMMANDS"]
@@ -60,20 +62,87 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _guard_streams() -> bool:
+    """Make the standard streams safe to use; return False if stdout is closed.
+
+    A closed descriptor 0, 1 or 2 is reopened on the null device, so no file this run
+    opens can take its number (and catch output meant for the terminal). With stderr
+    closed, error lines are dropped rather than printed on stdout. Text that the
+    terminal's encoding cannot show is written with backslash escapes, not refused.
+    """
+    stdout_open = True
+    for fd in (0, 1, 2):
+        try:
+            os.fstat(fd)
+        except OSError:
+            if fd == 1:
+                stdout_open = False
+            with_null = os.open(os.devnull, os.O_RDWR)
+            if with_null != fd:
+                os.dup2(with_null, fd)
+                os.close(with_null)
+    if sys.stderr is None:
+        sys.stderr = open(os.devnull, "w")  # noqa: SIM115 - lives as long as the process
+    if sys.stdout is None:
+        sys.stdout = open(os.devnull, "w")  # noqa: SIM115
+        stdout_open = False
+    for stream in (sys.stdout, sys.stderr):
+        reconfigure = getattr(stream, "reconfigure", None)
+        if reconfigure is not None:
+            try:
+                reconfigure(errors="backslashreplace")
+            except (ValueError, OSError):
+                pass
+    return stdout_open
+
+
+def _os_error_line(error: OSError) -> str:
+    where = error.filename or "standard output"
+    return f"qhat: error: {where}: {error.strerror or error}"
+
+
+def _silence_stdout() -> None:
+    """Point stdout at the null device so the exit-time flush cannot fail again."""
+    try:
+        null = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(null, sys.stdout.fileno())
+        os.close(null)
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line; return the exit status.
 
-    Bad input of any kind (``InputError``) ends as one line on stderr and status 2.
+    Bad input of any kind (``InputError``) ends as one line on stderr and status 2, and
+    so does an operating system error at the boundary (a destination that cannot be
+    written, a full disk, a standard output that cannot take the text).
     """
+    stdout_open = _guard_streams()
+    if hasattr(signal, "SIGXFSZ"):   # a file size limit: let the write fail, not the process
+        try:
+            signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
+        except ValueError:           # not the main thread: leave the disposition alone
+            pass
+    # figures are only ever written to files: never let a user's backend choice break them
+    os.environ["MPLBACKEND"] = "Agg"
+    argv = sys.argv[1:] if argv is None else list(argv)
     parser = build_parser()
     args = parser.parse_args(argv)
     if args.command is None:
         parser.print_help()
         return EXIT_INPUT
+    if not stdout_open:
+        print("qhat: error: standard output is closed; nothing was done", file=sys.stderr)
+        return EXIT_INPUT
     from infer.errors import InputError
+    from infer.reporting import folder
 
+    folder.set_command_line(argv)
     try:
-        return int(args._module.run(args) or 0)
+        status = int(args._module.run(args) or 0)
+        sys.stdout.flush()
+        return status
     except InputError as error:
         print(f"qhat: error: {error}", file=sys.stderr)
         return EXIT_INPUT
@@ -83,4 +152,12 @@ def main(argv: list[str] | None = None) -> int:
         print("qhat: interrupted; nothing was written", file=sys.stderr)
         return 130
     except BrokenPipeError:
+        _silence_stdout()
         return EXIT_OK
+    except OSError as error:
+        if not error.filename:
+            _silence_stdout()
+        print(_os_error_line(error), file=sys.stderr)
+        return EXIT_INPUT
+    finally:
+        folder.release_locks()

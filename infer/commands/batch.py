@@ -11,6 +11,7 @@ the results, are the same whichever way the work runs.
 from __future__ import annotations
 
 import contextlib
+import os
 import sys
 import time
 
@@ -57,8 +58,61 @@ def _check_options(args):
     checks.batch_options(args)
 
 
+#: seconds to connect to a scheduler and to hear its greeting
+PROBE_SECONDS = 5.0
+#: a dask greeting is a few hundred bytes; a first frame claiming more is not one
+_GREETING_LIMIT = 1 << 20
+
+
+def _probe_scheduler(address: str) -> None:
+    """Refuse ``address`` unless a TCP peer there greets like a dask scheduler.
+
+    A dask.distributed peer writes its handshake as soon as a connection opens: an
+    8-byte native unsigned length, then that many bytes (``distributed.comm.tcp``).
+    Anything else listening there (a web server waits silently; an SSH server sends
+    text that reads as an exabyte length) is refused within :data:`PROBE_SECONDS`
+    instead of hanging or allocating that length. Addresses of other transports
+    (``tls://``, ``ucx://``, ...) are left to dask.
+    """
+    import socket
+    import struct
+
+    scheme, _, rest = address.rpartition("://")
+    if scheme not in ("", "tcp"):
+        return
+    host, _, port = rest.rpartition(":")
+    if not host:
+        host, port = rest, "8786"
+    host = host.strip("[]")
+    if not port.isdigit() or not 0 < int(port) < 65536:
+        raise checks.option_error("--scheduler", f"{address!r} has no valid port "
+                                  "(use HOST:PORT or tcp://HOST:PORT)")
+    problem = None
+    try:
+        with socket.create_connection((host, int(port)), timeout=PROBE_SECONDS) as probe:
+            probe.settimeout(PROBE_SECONDS)
+            greeting = b""
+            while len(greeting) < 8:
+                part = probe.recv(8 - len(greeting))
+                if not part:
+                    break
+                greeting += part
+    except TimeoutError:
+        problem = f"nothing answered within {PROBE_SECONDS:g} s"
+    except OSError as error:
+        problem = error.strerror or str(error)
+    else:
+        if len(greeting) < 8:
+            problem = "the connection was closed without a dask greeting"
+        elif struct.unpack("Q", greeting)[0] > _GREETING_LIMIT:
+            problem = "what answers there is not a dask scheduler"
+    if problem is not None:
+        raise checks.option_error("--scheduler", f"cannot reach a dask scheduler at "
+                                  f"{address} ({problem})")
+
+
 @contextlib.contextmanager
-def _executor(args):
+def _executor(args, scratch=None):
     """Yield a ``map``-like function running chunks locally, in processes, or on dask."""
     if args.scheduler:
         try:
@@ -66,8 +120,9 @@ def _executor(args):
         except ImportError:
             raise checks.option_error("--scheduler", "dask.distributed is not installed: "
                                       "install qhat[dist]") from None
+        _probe_scheduler(args.scheduler)
         try:
-            client = Client(args.scheduler, timeout="20s")
+            client = Client(args.scheduler, timeout="10s")
         except (OSError, TimeoutError, ValueError) as error:
             raise checks.option_error("--scheduler", f"cannot reach the scheduler at "
                                       f"{args.scheduler} ({error})") from None
@@ -89,21 +144,51 @@ def _executor(args):
         context = multiprocessing.get_context("forkserver")
         context.set_forkserver_preload(
             ["infer.jobs.batch.run", "scipy.special", "scipy.interpolate"])
-        with ProcessPoolExecutor(max_workers=args.jobs, mp_context=context) as pool:
+        if scratch is not None:   # the forkserver's socket folder, for a later clean-up
+            from multiprocessing import util
+
+            from infer.reporting.folder import note_work_path
+
+            note_work_path(scratch, util.get_temp_dir())
+        with ProcessPoolExecutor(max_workers=args.jobs, mp_context=context,
+                                 initializer=watch_parent, initargs=(os.getpid(),)) as pool:
             yield lambda function, tasks: pool.map(function, tasks)
     else:
         yield map
 
 
+def watch_parent(pid: int, every: float = 0.5) -> None:
+    """In a worker process: end this process soon after process ``pid`` is gone.
+
+    A ``kill -9`` of ``qhat batch`` gives its workers no signal (their parent is the
+    forkserver, not qhat), and a worker blocked on a full result pipe would wait for
+    ever; the forkserver in turn lives as long as any worker. A daemon thread polls
+    ``pid`` and ends the worker when it has gone (or was replaced by another process).
+    """
+    import threading
+
+    def watch():
+        while True:
+            time.sleep(every)
+            try:
+                os.kill(pid, 0)
+            except ProcessLookupError:
+                os._exit(1)
+            except OSError:
+                pass
+            if os.getppid() == 1:      # orphaned: the forkserver is gone too
+                os._exit(1)
+
+    threading.Thread(target=watch, name="qhat-watch-parent", daemon=True).start()
+
+
 def run(args) -> int:
     """Run ``qhat batch``."""
-    from pathlib import Path
-
-    from infer.reporting.folder import check_destination, terminate_as_interrupt
+    from infer.reporting.folder import check_destination, out_path, terminate_as_interrupt
 
     started = time.perf_counter()
     _check_options(args)
-    out = Path(args.out)
+    out = out_path(args.out)
     check_destination(out, args.force)
     # SIGTERM (a cluster scheduler's kill) unwinds like Ctrl-C: the temporary chunk
     # store and the half-written report folder are removed
@@ -133,8 +218,11 @@ def _run(args, out, started) -> int:
         from tqdm import tqdm
 
         bar = tqdm(total=chunks, unit="chunk", desc="qhat batch", file=sys.stderr)
+    from infer.reporting.folder import work_folder
+
     try:
-        with _executor(args) as map_chunks, ChunkStore() as store:
+        with (work_folder("qhat-batch-") as scratch, _executor(args, scratch) as map_chunks,
+              ChunkStore(scratch) as store):
             result = batch.analyse(table.observed, table.sampled, table.mu, mu_sigma, settings,
                                    prior=args.prior, chunk_size=args.chunk_size,
                                    map_chunks=map_chunks, progress=bar.update if bar else None,

@@ -12,7 +12,6 @@ The check is :func:`infer.jobs.check.run.check_claim`; the renderers are in
 from __future__ import annotations
 
 import sys
-from pathlib import Path
 
 __all__ = ["add_arguments", "run"]
 
@@ -42,11 +41,11 @@ def _threshold(text: str) -> float:
 def run(args) -> int:
     """Run ``qhat check``."""
     from infer.files.claim import load_claim
-    from infer.reporting.folder import check_destination, terminate_as_interrupt
+    from infer.reporting.folder import check_destination, out_path, terminate_as_interrupt
 
     threshold = _threshold(args.threshold)
     claim = load_claim(args.claim)
-    out = Path(args.out) if args.out else None
+    out = out_path(args.out)
     if out is not None:
         check_destination(out, args.force)
     with terminate_as_interrupt():

@@ -210,11 +210,19 @@ def render_table(result: dict) -> str:
 def run(args) -> int:
     """Run ``qhat equilibrium``; return the exit status."""
     options = parse_options(args)
+    if options["plot"] is not None:
+        from infer.reporting.folder import check_file
+
+        check_file(options["plot"])
     result = compute(options)
     if options["plot"] is not None:
+        from infer.reporting.folder import file_error
         from infer.reporting.plots.equilibrium import write_equilibrium_plot
 
-        write_equilibrium_plot(options, options["plot"])
+        try:
+            write_equilibrium_plot(options, options["plot"])
+        except OSError as error:
+            raise file_error(error, options["plot"]) from None
     if args.json:
         from infer.reporting.jsonout import dumps
 

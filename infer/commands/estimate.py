@@ -88,13 +88,11 @@ def run(args) -> int:
 def _estimate_into_folder(args, plotter):
     """Read and check the study and the destination, sample, write the report folder."""
     from infer.files.study import load_study
-    from infer.reporting.folder import check_destination
+    from infer.reporting.folder import check_destination, out_path
 
     study = load_study(args.study)
-    out = Path(args.out) if args.out else default_out(args.study)
-    if not args.out:
-        out.parent.mkdir(exist_ok=True)
-    check_destination(out, args.force)
+    out = out_path(args.out) or default_out(args.study)
+    check_destination(out, args.force)   # creates reports/ if needed; locks the folder
     show = progress_printer(args.quiet)
     from infer.jobs.estimate.pipeline import estimate
     from infer.reporting.report import write_report

@@ -45,6 +45,10 @@ def add_arguments(parser) -> None:
 def run(args) -> int:
     """Run ``qhat simulate``: simulate, summarise, print, and optionally plot."""
     checks.simulate_options(args)
+    if args.plot is not None:
+        from infer.reporting.folder import check_file
+
+        check_file(args.plot)
     import numpy as np
 
     from infer.core.drift import stationary as drift
@@ -95,9 +99,13 @@ def run(args) -> int:
         else "Wright's stationary density needs --nu > 0 and --mu > 0",
     }
     if args.plot is not None:
+        from infer.reporting.folder import file_error
         from infer.reporting.plots.simulation import write_simulation_plot
 
-        write_simulation_plot(result, args, wright, args.plot)
+        try:
+            write_simulation_plot(result, args, wright, args.plot)
+        except OSError as error:
+            raise file_error(error, args.plot) from None
         print(f"wrote {args.plot}", file=sys.stderr)
     if args.json:
         print(json.dumps(document, indent=2))

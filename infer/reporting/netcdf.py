@@ -110,10 +110,16 @@ def write_netcdf(result, path: Path, log_prob: np.ndarray | None = None) -> None
     log_prob : ndarray, optional
         Log posterior of each kept draw (chain, draw), stored as ``sample_stats.lp``.
     """
+    import io
+
     import h5netcdf
 
     groups, attrs = netcdf_groups(result, log_prob)
-    with h5netcdf.File(str(path), "w") as root:
+    # built in memory and written in one plain write: a full disk then raises an ordinary
+    # OSError here, instead of leaving HDF5's own file handle broken (which crashes the
+    # interpreter at exit)
+    buffer = io.BytesIO()
+    with h5netcdf.File(buffer, "w") as root:
         root.attrs.update(attrs["/"])
         for group_name, variables in groups.items():
             group = root.create_group(group_name)
@@ -130,3 +136,4 @@ def write_netcdf(result, path: Path, log_prob: np.ndarray | None = None) -> None
                 data = np.ascontiguousarray(array)
                 group.create_variable(name, dims[name], data=data,
                                       fillvalue=np.nan if data.dtype.kind == "f" else None)
+    Path(path).write_bytes(buffer.getvalue())

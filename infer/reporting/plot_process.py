@@ -19,6 +19,7 @@ from __future__ import annotations
 import json
 import os
 import pickle
+import signal
 import subprocess
 import sys
 import sysconfig
@@ -115,6 +116,8 @@ def _warm_up() -> None:
 
 def _child() -> int:
     """The child: import, wait for the pickled (result, folder), draw, report the files."""
+    if hasattr(signal, "SIGXFSZ"):   # a file size limit fails the write, not the child
+        signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
     try:
         import matplotlib
 

@@ -37,6 +37,7 @@ from infer.jobs.batch.summary import FLAGS  # noqa: E402
 from infer.cli import main  # noqa: E402
 from infer.files.loci import read_loci  # noqa: E402
 from infer.reporting import batch_report  # noqa: E402
+from infer.reporting.folder import MARKER  # noqa: E402
 from infer.reporting.plots.batch_figures import BATCH_FIGURE_FILES, batch_figures  # noqa: E402
 from infer.reporting.plots.save import plain_text  # noqa: E402
 
@@ -139,7 +140,8 @@ def test_summary_document_keys_flags_and_files(made, tmp_path):
         "caution", "command", "input", "model", "settings", "prior", "log_marginal_likelihood",
         "expected_count", "flags", "medians_across_loci", "execution", "timings", "files"], (
         f"summary.json keys {list(document)}: a change breaks readers of the file")
-    assert sorted(document["files"]) == sorted(p.name for p in out.iterdir()), (
+    assert sorted(document["files"]) == sorted(
+            p.name for p in out.iterdir() if p.name != MARKER), (
         f"summary lists {document['files']}, the folder holds {sorted(os.listdir(out))}")
     assert list(document["medians_across_loci"]) == ["q05", "q25", "q50", "q75", "q95"], (
         f"median quantile keys {list(document['medians_across_loci'])}")
@@ -199,7 +201,7 @@ def test_write_batch_report_files_follow_the_umask(made, tmp_path, umask):
     _, report = made
     out, _ = _written(report, tmp_path)
     modes = {p.name: p.stat().st_mode & 0o777 for p in out.iterdir()}
-    assert modes == {name: mode for name in batch_report.BATCH_FILES}, (
+    assert modes == {name: mode for name in (*batch_report.BATCH_FILES, MARKER)}, (
         f"umask 027: modes {modes}, want {mode:o} for each of {batch_report.BATCH_FILES}")
     for name in BATCH_FIGURE_FILES:
         assert (out / name).read_bytes()[:8] == PNG_SIGNATURE, f"{name} is not a PNG file"
@@ -212,5 +214,5 @@ def test_the_command_writes_files_with_the_umask_mode(made, tmp_path, umask, cap
     assert main(["batch", str(source), "--out", str(out), "--quiet"]) == 0, (
         capsys.readouterr().err)
     modes = {p.name: p.stat().st_mode & 0o777 for p in out.iterdir()}
-    assert modes == {name: mode for name in batch_report.BATCH_FILES}, (
+    assert modes == {name: mode for name in (*batch_report.BATCH_FILES, MARKER)}, (
         f"umask 077: modes {modes}, want {mode:o} for each of {batch_report.BATCH_FILES}")

@@ -32,6 +32,7 @@ from infer.jobs.check.run import check_claim  # noqa: E402
 from infer.cli import main  # noqa: E402
 from infer.files.claim import load_claim  # noqa: E402
 from infer.reporting import check_report  # noqa: E402
+from infer.reporting.folder import MARKER  # noqa: E402
 from infer.reporting.jsonout import dumps  # noqa: E402
 from infer.reporting.plots.claim_balance import claim_balance_figure  # noqa: E402
 from infer.reporting.plots.save import plain_text  # noqa: E402
@@ -231,7 +232,7 @@ def test_write_check_report_writes_three_files_with_the_umask_mode(tmp_path, uma
     result = check_claim(_claim(tmp_path))
     out = check_report.write_check_report(result, tmp_path / "report")
     names = sorted(p.name for p in out.iterdir())
-    assert names == sorted(check_report.CHECK_FILES), f"report folder holds {names}"
+    assert names == sorted((*check_report.CHECK_FILES, MARKER)), f"report folder holds {names}"
     for name in names:
         got = (out / name).stat().st_mode & 0o777
         assert got == mode, f"{name} has mode {got:o}, not 0o666 & ~027 = {mode:o}"
@@ -250,7 +251,7 @@ def test_the_command_writes_files_with_the_umask_mode(tmp_path, umask, capsys):
     out = tmp_path / "report"
     assert main(["check", str(claim.path), "--out", str(out)]) == 3, capsys.readouterr().err
     modes = {p.name: p.stat().st_mode & 0o777 for p in out.iterdir()}
-    assert modes == {name: mode for name in check_report.CHECK_FILES}, (
+    assert modes == {name: mode for name in (*check_report.CHECK_FILES, MARKER)}, (
         f"umask 077: file modes {modes}, want {mode:o} for each of {check_report.CHECK_FILES}")
 
 

@@ -31,7 +31,7 @@ from infer import cli
 from infer.commands.estimate import EXIT_NOT_CONVERGED, default_out
 from infer.errors import InputError
 from infer.reporting import folder as folder_module
-from infer.reporting.folder import atomic_folder, safe_name, terminate_as_interrupt
+from infer.reporting.folder import MARKER, atomic_folder, safe_name, terminate_as_interrupt
 
 INTERRUPTED = "qhat: interrupted; nothing was written"
 #: 128 + SIGINT (2): the shell's status for a run ended by Ctrl-C (POSIX shell convention,
@@ -78,6 +78,12 @@ seed = 4
 walkers = 96
 max_steps = 10000000
 """
+
+
+def mark_as_written(folder: Path) -> None:
+    """Make ``folder`` look like a report qhat wrote (its marker lists its files)."""
+    files = sorted(p.name for p in folder.iterdir() if p.name != MARKER)
+    (folder / MARKER).write_text(json.dumps({"written_by": "qhat", "files": files}))
 
 
 def tree(root: Path) -> list[str]:
@@ -174,7 +180,8 @@ def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
     """stderr is a pipe (a scheduler's log): no progress is shown, so the run is caught
     after the default report parent ``reports/`` appears (docs/command-line.md: the study
     has been read; sampling is starting) plus a second. stderr must be exactly the one
-    interrupted line; ``reports/`` holds nothing, not even a hidden temporary folder."""
+    interrupted line; ``reports/``, made by this run, is removed again with anything in it
+    (a hidden temporary folder, the destination lock)."""
     (tmp_path / "study.toml").write_text(LONG)
     process = start(["estimate", "study.toml"], tmp_path, subprocess.PIPE)
     try:
@@ -196,8 +203,9 @@ def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
         f"stderr must be exactly the interrupted line; got {stderr.decode()!r}")
     assert stdout == b"", f"an interrupted run must print nothing on stdout: {stdout!r}"
     left = tree(tmp_path)
-    assert left == ["reports", "study.toml"], (
-        f"reports/ must be empty after the interrupt (no hidden temporary); found {left}")
+    assert left == ["study.toml"], (
+        f"the reports/ folder the run made, and any hidden temporary, must be gone after "
+        f"the interrupt; found {left}")
 
 
 # ---------------------------------------------------------------- the writing phase
@@ -220,12 +228,14 @@ def test_interrupt_while_replacing_with_force_leaves_the_old_report_untouched(tm
     out = tmp_path / "report"
     out.mkdir()
     (out / "summary.json").write_bytes(b'{"old": true}\n')
+    mark_as_written(out)
     with pytest.raises(KeyboardInterrupt):
         with atomic_folder(out, force=True) as temporary:
             (temporary / "summary.json").write_text('{"new": true}\n')
             raise KeyboardInterrupt
     left = tree(tmp_path)
-    assert left == ["report", "report/summary.json"], f"after the interrupt the tree is {left}"
+    assert left == ["report", f"report/{MARKER}", "report/summary.json"], (
+        f"after the interrupt the tree is {left}")
     old = (out / "summary.json").read_bytes()
     assert old == b'{"old": true}\n', f"the earlier report was changed to {old!r}"
 
@@ -254,6 +264,7 @@ def test_interrupt_between_the_two_renames_of_a_forced_replacement(tmp_path, mon
     out = tmp_path / "report"
     out.mkdir()
     (out / "summary.json").write_bytes(b'{"old": true}\n')
+    mark_as_written(out)
     real_rename = os.rename
     calls = []
 
@@ -272,7 +283,8 @@ def test_interrupt_between_the_two_renames_of_a_forced_replacement(tmp_path, mon
     assert len(calls) == 3 and calls[2][1] == out, (
         f"expected move-aside, (interrupted) move-in, move-back; renames were {calls}")
     left = tree(tmp_path)
-    assert left == ["report", "report/summary.json"], f"after the interrupt the tree is {left}"
+    assert left == ["report", f"report/{MARKER}", "report/summary.json"], (
+        f"after the interrupt the tree is {left}")
     old = (out / "summary.json").read_bytes()
     assert old == b'{"old": true}\n', f"the earlier report was changed to {old!r}"
 
@@ -350,6 +362,7 @@ def test_interrupt_while_writing_the_report(tmp_path, monkeypatch, capsys, how, 
     (tmp_path / "kept").mkdir()  # an earlier report
     for name in ("summary.json", "report.md", "marginals.png"):
         (tmp_path / "kept" / name).write_bytes(f"earlier {name}\n".encode())
+    mark_as_written(tmp_path / "kept")
     kept = {p.name: p.read_bytes() for p in (tmp_path / "kept").iterdir()}
     monkeypatch.setattr(infer.reporting.plots.figures, "write_plots",
                         plots_that_get_interrupted(how))

@@ -15,20 +15,25 @@ class ChunkStore:
 
     Keeps the drift model's per-chunk log-likelihoods between the two empirical-Bayes
     passes of :func:`infer.jobs.batch.run.analyse` without holding them in memory. Use as a
-    context manager; the folder goes away on exit.
+    context manager. Without ``folder`` it makes a private temporary folder that goes
+    away on exit; a given ``folder`` is used as it is and left to its maker.
     """
 
-    def __init__(self):
-        self._folder = tempfile.TemporaryDirectory(prefix="qhat-batch-")
+    def __init__(self, folder: str | Path | None = None):
+        #: a caller's folder is the caller's to remove; our own goes away on exit
+        self._own = None if folder is not None else tempfile.TemporaryDirectory(
+            prefix="qhat-batch-")
+        self._path = Path(folder) if folder is not None else Path(self._own.name)
 
     def __setitem__(self, index, array):
-        np.save(Path(self._folder.name) / f"{int(index)}.npy", np.asarray(array))
+        np.save(self._path / f"{int(index)}.npy", np.asarray(array))
 
     def __getitem__(self, index):
-        return np.load(Path(self._folder.name) / f"{int(index)}.npy")
+        return np.load(self._path / f"{int(index)}.npy")
 
     def __enter__(self):
         return self
 
     def __exit__(self, *exc):
-        self._folder.cleanup()
+        if self._own is not None:
+            self._own.cleanup()

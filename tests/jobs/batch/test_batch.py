@@ -30,6 +30,7 @@ from scipy import integrate, optimize, special, stats
 
 from infer.jobs.batch import run as batch
 from infer.cli import main
+from infer.reporting.folder import MARKER
 
 ROOT = Path(__file__).resolve().parents[3]
 _spec = importlib.util.spec_from_file_location("make_batch_demo",
@@ -315,8 +316,8 @@ def test_cli_writes_the_report_folder(tmp_path, capsys):
     printed = capsys.readouterr()
     assert status == 0, printed.err
     names = sorted(p.name for p in out.iterdir())
-    assert names == ["loci.csv", "medians.png", "observed_vs_expected.png", "prior.png",
-                     "summary.json"], f"report folder holds {names}"
+    assert names == sorted([MARKER, "loci.csv", "medians.png", "observed_vs_expected.png",
+                            "prior.png", "summary.json"]), f"report folder holds {names}"
     sizes = {"medians.png": (440, 660), "observed_vs_expected.png": (550, 660),
              "prior.png": (440, 660)}
     for name, shape in sizes.items():
@@ -487,7 +488,7 @@ def test_locus_names_never_become_paths(tmp_path):
     assert main(["batch", str(source), "--out", str(out), "--quiet"]) == 0, "odd names must run"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["odd.csv", "out"], (
         f"a locus name became a path: {sorted(p.name for p in tmp_path.iterdir())}")
-    assert len(list(out.iterdir())) == 5, f"report holds {sorted(os.listdir(out))}"
+    assert len(list(out.iterdir())) == 6, f"report holds {sorted(os.listdir(out))} (5 + {MARKER})"
 
 
 def test_demo_file_is_the_documented_simulation(tmp_path):
