@@ -27,9 +27,10 @@ the paper states and of the formula it used, and the observations it reports::
     load = 4e-4                        # mutation load, 1 - mean fitness
     approximation = "sqrt(mu/s)"       # the formula the authors used (see APPROXIMATIONS)
     mu_scale = "locus"                 # "locus" (default) or "nucleotide"
+    species = "human"                  # the built-in mutation-rate ranges are human ones
     tolerance = 0.2                    # rounding allowed in stated numbers (default 0.2)
 
-    [[observations]]                   # exactly as in a study file
+    [[observations]]                   # exactly as in a study file; none: arithmetic only
     kind = "affected"
     affected = 40
     total = 100_000
@@ -102,7 +103,7 @@ APPROXIMATIONS = {
     "x-linked": ("3mu/s", "rare-allele", "indirect"),
 }
 MU_SCALES = ("locus", "nucleotide")
-_CLAIMED_KEYS = (*STATEMENTS, "mode", "approximation", "mu_scale", "tolerance")
+_CLAIMED_KEYS = (*STATEMENTS, "mode", "approximation", "mu_scale", "tolerance", "species")
 _VALUE_KEYS = ("claimed", "lower", "upper")
 #: the wide priors the check uses to ask what the data alone imply about one parameter
 #: (log-uniform for mu, uniform for s and h); also used to validate the observations
@@ -151,6 +152,9 @@ class Claim:
         The formula the authors used.
     mu_scale : str
         ``"locus"`` or ``"nucleotide"``: what the claimed mu is a rate of.
+    species : str or None
+        The species studied (``[claimed] species``); None is read as human, the
+        population of the built-in mutation-rate ranges.
     tolerance : float
         Relative rounding allowed between a stated number and the value implied.
     seed : int
@@ -166,6 +170,7 @@ class Claim:
     mode: str | None = None
     approximation: str | None = None
     mu_scale: str = "locus"
+    species: str | None = None
     tolerance: float = DEFAULT_TOLERANCE
     seed: int = DEFAULT_SEED
 
@@ -252,6 +257,12 @@ def _parse(document: Any, source: str) -> Claim:
     # wide priors of mu, s and h (so data the claim makes impossible is a finding of the
     # check, not an input error); then every parameter is fixed at its claimed value.
     study_document = {k: v for k, v in document.items() if k not in ("claimed", "reference")}
+    # a claim with no observations is pure arithmetic (stated numbers against the claimed
+    # parameters): validate it with a stand-in observation, then drop it
+    arithmetic_only = "observations" not in document or document["observations"] == []
+    if arithmetic_only:
+        study_document["observations"] = [{"kind": "allele-count", "observed": 0,
+                                           "sampled": 1}]
     study_document["parameters"] = {
         **{k: v for k, v in values.items() if k not in WIDE_PRIORS},
         **{k: p.as_dict() for k, p in WIDE_PRIORS.items()},
@@ -261,7 +272,8 @@ def _parse(document: Any, source: str) -> Claim:
     for name in REQUIRED_PARAMETERS:
         parameters[name] = Fixed(name, values[name])
     study = replace(study, parameters=parameters,
-                    defaulted=study.defaulted - set(REQUIRED_PARAMETERS))
+                    defaulted=study.defaulted - set(REQUIRED_PARAMETERS),
+                    observations=[] if arithmetic_only else study.observations)
 
     claimed = document.get("claimed", {})
     if not isinstance(claimed, dict):
@@ -288,6 +300,9 @@ def _parse(document: Any, source: str) -> Claim:
             raise InputError('missing; the indirect method needs mode = "dominant" or '
                              '"recessive"', field="claimed.mode")
     mu_scale = _choice(claimed.get("mu_scale", "locus"), MU_SCALES, "claimed.mu_scale")
+    species = claimed.get("species")
+    if species is not None and (not isinstance(species, str) or not species.strip()):
+        raise InputError(f"{_fmt(species)} is not a name", field="claimed.species")
     tolerance = _real(claimed.get("tolerance", DEFAULT_TOLERANCE), "claimed.tolerance")
     if not 0.0 <= tolerance < 1.0:
         raise InputError(f"{_fmt(claimed['tolerance'])} is not in [0, 1)",
@@ -302,6 +317,7 @@ def _parse(document: Any, source: str) -> Claim:
         mode=mode,
         approximation=approximation,
         mu_scale=mu_scale,
+        species=species.strip() if species else None,
         tolerance=tolerance,
         seed=DEFAULT_SEED if study.seed is None else study.seed,
     )

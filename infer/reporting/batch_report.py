@@ -13,14 +13,15 @@ from pathlib import Path
 
 import numpy as np
 
-from infer.jobs.batch.summary import FLAGS
+from infer.jobs.batch.summary import FLAGS, H_HALF_NOTE
 from infer.core.text import CAUTION_LINE
 from infer.reporting.folder import atomic_folder
 from infer.reporting.jsonout import dumps
 from infer.reporting.plots.batch_figures import BATCH_FIGURE_FILES, batch_figures
 from infer.reporting.plots.save import save_figures
 
-__all__ = ["BATCH_FILES", "LOCI_COLUMNS", "loci_rows", "batch_document", "write_batch_report"]
+__all__ = ["BATCH_FILES", "LOCI_COLUMNS", "loci_rows", "batch_assumptions", "batch_document",
+           "write_batch_report"]
 
 #: files of a batch report folder, as summary.json lists them
 BATCH_FILES = ("loci.csv", "summary.json", *BATCH_FIGURE_FILES)
@@ -75,6 +76,27 @@ def _fitted(fitted) -> dict | None:
             "log_bayes_factor_vs_log_uniform": fitted.log_bayes_factor}
 
 
+#: ignored column names that look like a mode of inheritance
+_MODE_COLUMNS = ("mode", "inheritance", "moi", "mode_of_inheritance", "dominance")
+
+
+def batch_assumptions(table) -> list[str]:
+    """What every s_het of the run assumes, with a warning when the file names modes.
+
+    The h = 1/2 convention of s_het (:data:`infer.jobs.batch.summary.H_HALF_NOTE`); when
+    the loci file has a column that looks like a mode of inheritance (which qhat batch
+    does not read), a sentence saying that recessive loci there are analysed under h = 1/2.
+    """
+    notes = [H_HALF_NOTE + "."]
+    named = [c for c in table.ignored_columns
+             if str(c).strip().lower().replace(" ", "_") in _MODE_COLUMNS]
+    if named:
+        notes.append(f"The column {', '.join(repr(c) for c in named)} is not read: loci "
+                     "marked recessive there are still analysed under h = 1/2; leave them "
+                     "out or estimate them with qhat estimate (h = 0).")
+    return notes
+
+
 def batch_document(report) -> dict:
     """The object of summary.json.
 
@@ -106,6 +128,7 @@ def batch_document(report) -> dict:
             "Ne": settings.Ne, "nu": settings.nu if settings.model == "drift" else None,
             "mu_uncertainty": f"log-normal with median mu and the {report.mu_level:g} central "
                               "interval mu_lower..mu_upper, integrated out",
+            "assumptions": batch_assumptions(table),
         },
         "settings": {"s_low": settings.s_low, "s_high": settings.s_high,
                      "grid_points": settings.grid_points, "grid_step_log": settings.step,

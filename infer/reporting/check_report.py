@@ -14,6 +14,7 @@ from pathlib import Path
 from infer.core.text import CAUTION, caution_sentence, fmt
 from infer.reporting.folder import atomic_folder
 from infer.reporting.jsonout import dumps
+from infer.reporting.labels import fmt_count, fmt_value
 from infer.reporting.plots.claim_balance import claim_balance_figure
 from infer.reporting.plots.save import save_figures
 
@@ -57,12 +58,30 @@ def _claimed_lines(claim) -> list[str]:
 
 
 def _implied_lines(result) -> list[str]:
+    """The quantities the claim implies, under the model the findings use.
+
+    Under ``model = "drift"`` the frequency is Wright's stationary distribution (as in
+    the observation findings), the deterministic q_hat shown for comparison; an
+    incidence is shown only for the claimed mode (every mode stays in check.json).
+    """
     implied, claim = result.implied, result.claim
     names = (["q_male", "q_female", "q_hat", "load_male", "new_mutation_share"]
              if claim.inheritance == "x-linked" else
              ["q_hat", "carrier_frequency", "incidence_dominant", "incidence_recessive", "load"])
+    names = [n for n in names if not n.startswith("incidence_") or n == f"incidence_{claim.mode}"]
     band = implied.get("uncertainty", {})
     lines = []
+    stationary = implied.get("stationary")
+    if stationary is not None:
+        lines.append(f"under Wright's stationary density (Ne = {fmt(claim.values['Ne'])}) "
+                     f"mean frequency {fmt_value(stationary['mean'])}, median "
+                     f"{fmt_value(stationary['median'])}, {fmt_value(stationary['lower'])} to "
+                     f"{fmt_value(stationary['upper'])}")
+        for name in ("carrier_frequency", f"incidence_{claim.mode}", "load"):
+            if name in stationary and name in names:
+                lines.append(f"{name} = {fmt_value(stationary[name])}")
+        lines.append(f"(deterministic q_hat = {fmt(implied.get('q_hat'))}, ignoring drift)")
+        return lines
     for name in names:
         text = f"{name} = {fmt(implied.get(name))}"
         if name in band:
@@ -153,18 +172,22 @@ def check_markdown(result, plot: str | None) -> str:
             f"{s.name} = {fmt(s.value)}" for s in claim.statements.values()) + ".")
     if claim.approximation:
         lines.append(f"- Formula used by the authors: `{claim.approximation}`.")
-    lines += ["", "## What the claimed parameters imply (exact balance)", ""]
+    lines += ["", "## What the claimed parameters imply ("
+              + ("Wright's stationary distribution" if "stationary" in implied
+                 else "exact balance") + ")", ""]
     lines += [f"- {text}" for text in _implied_lines(result)]
-    if "stationary" in implied:
-        st = implied["stationary"]
-        lines.append(f"- Wright's stationary density: mean {fmt(st['mean'])}, median "
-                     f"{fmt(st['median'])}, interval {fmt(st['lower'])} to {fmt(st['upper'])}")
-    lines += ["", "## Observations against the claim", "",
-              "| # | observation | observed | implied | observed/implied | p-value |",
-              "|---|---|---|---|---|---|"]
+    lines += ["", "## Observations against the claim", ""]
+    if not implied["observations"]:
+        lines += ["The claim reports no observations: only its own arithmetic (stated "
+                  "numbers against the claimed parameters) and the trade's ranges are "
+                  "checked."]
+    else:
+        lines += ["| # | observation | observed | implied | observed/implied | p-value |",
+                  "|---|---|---|---|---|---|"]
     for o in implied["observations"]:
-        lines.append(f"| {o['index']} | {o['label']} ({o['statistic']}) | {fmt(o['observed'])} "
-                     f"| {fmt(o['implied'])} | {fmt(o['ratio'])} | {fmt(o['p_value'])} |")
+        lines.append(f"| {o['index']} | {o['label']} ({o['statistic']}) | "
+                     f"{fmt_count(o['observed'])} | {fmt_value(o['implied'])} | "
+                     f"{fmt_value(o['ratio'])} | {fmt_value(o['p_value'])} |")
     lines += ["", "Two-sided posterior predictive p-values of each observed statistic under "
               "the claim (its stated uncertainty included).", "",
               "## What the reported data imply, one parameter at a time", "",

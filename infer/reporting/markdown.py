@@ -2,7 +2,17 @@
 
 from __future__ import annotations
 
-from infer.core.text import CAUTION, CAUTION_LINE, fmt
+from infer.core.text import CAUTION, CAUTION_LINE
+from infer.reporting.classic_estimates import direct_indirect_lines
+from infer.reporting.labels import (
+    fmt_contraction,
+    fmt_count,
+    fmt_level,
+    fmt_percent,
+    model_assumptions,
+    parameter_meanings,
+)
+from infer.reporting.labels import fmt_value as fmt
 from infer.jobs.estimate.warnings import (
     POOR_FIT_BELOW,
     estimate_warnings,
@@ -11,16 +21,6 @@ from infer.jobs.estimate.warnings import (
 )
 
 __all__ = ["report_markdown", "terminal_summary"]
-
-_UNITS = {
-    "mu": "per gene copy per generation",
-    "s": "selection coefficient against aa",
-    "h": "dominance of the deleterious allele",
-    "F": "inbreeding coefficient",
-    "nu": "back mutation per generation",
-    "Ne": "effective population size",
-    "alpha": "male/female mutation-rate ratio",
-}
 
 _DERIVED = {
     "q_hat": "equilibrium allele frequency among newborns",
@@ -34,7 +34,53 @@ _DERIVED = {
     "affected_male": "affected fraction of newborn sons",
     "q_mean_drift": "mean allele frequency under drift (Wright's density)",
     "q_median_drift": "median allele frequency under drift",
+    "mu_female": "mutation rate in the female germ line, 3 mu/(2 + alpha)",
+    "mu_male": "mutation rate in the male germ line, alpha·mu_female",
 }
+_DRIFT_MEANING = {
+    "q_hat": "deterministic balance frequency (ignores drift; not what a drift study "
+             "expects to see)",
+    "q_median_drift": "median over draws of Wright's per-draw median (0 when most mass "
+                      "is at 0)",
+}
+
+
+def _stat(value, entry: dict) -> str:
+    """A statistic as a whole number when the replicates are counts."""
+    if value is None:
+        return "—"
+    return fmt_count(value) if entry.get("integer") else fmt(value)
+
+
+def drift_lines(d: dict, pct: str) -> list[str]:
+    """The report's section on Wright's stationary distribution (a drift study)."""
+    lines = ["### Allele frequency under drift (Wright's stationary distribution)", "",
+             "Over the posterior, Wright's distribution at constant Ne (Wright 1931; 1937) "
+             "gives the allele frequency a drift study expects to see:", ""]
+    rows = [["mean frequency", fmt(d["mean"]),
+             f"{fmt(d['mean_lower'])} – {fmt(d['mean_upper'])} (of the per-draw means)"],
+            ["frequency (median of the predictive distribution)", fmt(d["median"]),
+             f"{fmt(d['lower'])} – {fmt(d['upper'])} (central {pct})"],
+            ["share below one copy in the population, x < 1/(2Ne)",
+             fmt_percent(d["below_one_copy"], 1), ""]]
+    for sample in d["samples"]:
+        absent = sample["p_absent"]
+        rows.append([f"P(absent from a sample of {fmt_count(sample['sample'])} allele copies, "
+                     f"the size of \"{sample['label']}\")", fmt(absent["mean"]),
+                     f"{fmt(absent['lower'])} – {fmt(absent['upper'])} (over draws)"])
+        rows.append([f"P(frequency ≥ observed {fmt(sample['observed_frequency'])}, "
+                     f"{fmt_count(sample['copies'])}/{fmt_count(sample['sample'])})",
+                     fmt(sample["p_at_least_observed"]),
+                     f"± {fmt(sample['p_at_least_observed_se'], 2)} (Monte Carlo)"])
+    lines += _table(["quantity", "value", "interval"], rows)
+    if d["mostly_at_zero"]:
+        lines += ["", f"Most of the mass is at 0: in {fmt_percent(d['below_one_copy'], 0)} of "
+                  "the predictive distribution the allele has fewer than one copy in the "
+                  "population, that is, it is usually absent and comes and goes by new "
+                  "mutation and drift; when present it can be far more common than the "
+                  "deterministic balance value. Read the mean and the probabilities above, "
+                  "not the median."]
+    return lines
 
 
 def _table(header: list[str], rows: list[list[str]]) -> list[str]:
@@ -47,7 +93,7 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
     """The text of report.md."""
     s = result.summary
     study = result.study
-    pct = f"{100 * s['interval']:g} %"
+    pct = fmt_level(s["interval"])
     care = read_with_care(s)
     lines = [f"**{care[0]} — read with care:** {care[1]}", ""] if care else []
     lines += [f"# {study.title}", "", CAUTION, ""]
@@ -65,17 +111,17 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
               "- Life cycle: census at birth; selection on zygotes (AA 1, Aa 1-hs, aa 1-s), "
               "mutation in the germ line, random union of gametes"
               + (" with inbreeding F" if "F" in result.free or s["parameters"]["F"]["median"]
-                 else "") + ".",
-              "- Equilibrium is assumed: the allele frequency has settled at its balance "
-              "value.", ""]
+                 else "") + "."]
+    lines += [f"- {text}" for text in model_assumptions(study.model)] + [""]
     for assumption in dict.fromkeys(o.assumption for o in study.observations if o.assumption):
         lines += [f"- {assumption}", ""]
     lines += ["Observations:", ""]
     lines += [f"{i + 1}. {o.describe()}" for i, o in enumerate(study.observations)]
     lines += ["", "Parameters (priors; *default* marks a value the study did not set):", ""]
     rows = []
+    meanings = parameter_meanings(study.inheritance, s["parameters"])
     for name, p in s["parameters"].items():
-        rows.append([name, _UNITS.get(name, ""), p["prior"] + (" *default*" if p["defaulted"]
+        rows.append([name, meanings.get(name, ""), p["prior"] + (" *default*" if p["defaulted"]
                                                                else "")])
     lines += _table(["parameter", "meaning", "prior or fixed value"], rows)
 
@@ -86,24 +132,30 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
         rows.append([name, fmt(p["median"]), f"{fmt(p['lower'])} – {fmt(p['upper'])}",
                      fmt(p["mean"]), fmt(p["sd"]),
                      f"{fmt(p['prior_lower'])} – {fmt(p['prior_upper'])}",
-                     f"{p['contraction']:.2f}" if p["contraction"] is not None else "—",
+                     fmt_contraction(p["contraction"]),
                      f"{p['ess_bulk']:.0f}", f"{p['r_hat']:.4f}"])
     lines += _table(["parameter", "median", f"{pct} interval", "mean", "sd",
                      f"prior {pct}", "contraction", "bulk ESS", "R-hat"], rows)
-    lines += ["", "Derived quantities:", ""]
-    rows = [[k, _DERIVED.get(k, ""), fmt(v["median"]), f"{fmt(v['lower'])} – {fmt(v['upper'])}"]
+    if "drift_frequency" in s:
+        lines += [""] + drift_lines(s["drift_frequency"], pct)
+    lines += ["", "Derived quantities" + (" (per posterior draw; under drift q_hat is the "
+                                          "deterministic value, for comparison)"
+                                          if "drift_frequency" in s else "") + ":", ""]
+    meaning = dict(_DERIVED, **(_DRIFT_MEANING if "drift_frequency" in s else {}))
+    rows = [[k, meaning.get(k, ""), fmt(v["median"]), f"{fmt(v['lower'])} – {fmt(v['upper'])}"]
             for k, v in s["derived"].items()]
     lines += _table(["quantity", "meaning", "median", f"{pct} interval"], rows)
     share = max((v.get("no_equilibrium_share", 0.0) for v in s["derived"].values()),
                 default=0.0)
     if share > 0:
-        lines += ["", f"In {100 * share:.1f} % of posterior draws there is no stable interior "
+        lines += ["", f"In {fmt_percent(share, 1)} of posterior draws there is no stable interior "
                   "equilibrium (mutation overwhelms selection)."]
 
     lines += ["", "## What the data identify", ""]
     lines += [f"- {t}" for t in s["identifiability"]]
     lines += ["", "`contraction` is 1 - posterior sd / prior sd on the sampling scale (log10 for "
               "log-scale priors): near 1 the data decide, near 0 the prior does."]
+    lines += direct_indirect_lines(s, pct)
 
     if "drift_comparison" in s:
         c = s["drift_comparison"]
@@ -147,11 +199,17 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
                      f"(sampling {timing['sampling_seconds']:.1f} s).")
 
     lines += ["", "## Posterior predictive checks", ""]
-    rows = [[str(i + 1), p["label"], p["statistic"], fmt(p["observed"]),
-             fmt(p["expected_median"]), fmt(p["p_value"])]
+    rows = [[str(i + 1), p["label"], p["statistic"], _stat(p["observed"], p),
+             _stat(p.get("predictive_median"), p),
+             f"{_stat(p.get('predictive_lower'), p)} – {_stat(p.get('predictive_upper'), p)}",
+             fmt(p["p_value"])]
             for i, p in enumerate(s["predictive"])]
-    lines += _table(["#", "observation", "statistic", "observed", "expected (median)",
-                     "p-value"], rows)
+    lines += _table(["#", "observation", "statistic", "observed", "predictive median",
+                     "95 % predictive interval", "p-value"], rows)
+    lines += ["", "The predictive median and interval are those of the statistic replicated "
+              "from the fitted model (new data of the same size)"
+              + (", the frequency drawn from Wright's distribution for each draw"
+                 if "drift_frequency" in s else "") + "."]
     bad = [p["label"] for p in poorly_reproduced(s)]
     lines += ["", (f"Observations the model reproduces poorly (p < {POOR_FIT_BELOW:g}): "
                    + ", ".join(bad) + ". Balance may not explain them.") if bad else
@@ -173,16 +231,26 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
 def terminal_summary(result, out_path) -> str:
     """A few lines for the terminal after ``qhat estimate``."""
     s = result.summary
-    pct = f"{100 * s['interval']:g}%"
+    pct = fmt_level(s["interval"], space="")
     lines = [f"{result.study.title}"]
     for name in result.free:
         p = s["parameters"][name]
         lines.append(f"  {name:<6} {fmt(p['median']):>10}  {pct} {fmt(p['lower'])} – "
-                     f"{fmt(p['upper'])}  contraction {p['contraction']:.2f}")
+                     f"{fmt(p['upper'])}  contraction {fmt_contraction(p['contraction'])}")
+    d = s.get("drift_frequency")
     q = s["derived"].get("q_hat")
-    if q:
-        lines.append(f"  q_hat  {fmt(q['median']):>10}  {pct} {fmt(q['lower'])} – "
-                     f"{fmt(q['upper'])}")
+    if d:
+        lines.append(f"  drift: mean frequency {fmt(d['mean'])}, {pct} {fmt(d['lower'])} – "
+                     f"{fmt(d['upper'])}" + ("; most mass at 0" if d["mostly_at_zero"] else ""))
+        for sample in d["samples"][:1]:
+            lines.append(f"         P(absent from {fmt_count(sample['sample'])} copies) "
+                         f"{fmt(sample['p_absent']['mean'])}, P(frequency ≥ observed) "
+                         f"{fmt(sample['p_at_least_observed'])}")
+    elif q:
+        sons = s["derived"].get("q_male")  # X-linked: the frequency the data see
+        name, q = ("q_male", sons) if sons else ("q_hat", q)
+        lines.append(f"  {name:<6} {fmt(q['median']):>10}  {pct} {fmt(q['lower'])} – "
+                     f"{fmt(q['upper'])}" + ("  (in newborn sons)" if sons else ""))
     d = s["diagnostics"]
     lines.append("  converged" if d["converged"] else "  NOT CONVERGED: " + " ".join(d["messages"]))
     lines.append(f"  report: {out_path}/report.md")

@@ -176,7 +176,8 @@ def test_claim_balance_figure_draws_curve_point_range_and_band(tmp_path):
         f"{len(ax.patches)} patches, {len(ax.collections)} collections: want the measured "
         "range and the observed band")
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
-    assert legend == ["measured locus rates (1e-06 to 0.0001)", "exact balance, s = 0.5, h = 1",
+    assert legend == ["measured human locus rates (1e-06 to 0.0001)",
+                      "exact balance, s = 0.5, h = 1",
                       "claimed mu = 1e-05", "observed 19/182400 (95 % Clopper-Pearson)"], (
         f"legend {legend}")
     _drawn(figure)
@@ -197,7 +198,7 @@ def test_nucleotide_claims_are_drawn_against_the_per_nucleotide_range(tmp_path):
     assert result.balance_curve.measured_range == (1e-8, 3e-8), result.balance_curve
     ax = claim_balance_figure(result).axes[0]
     assert ax.get_xlabel() == "mu (per nucleotide per generation)", ax.get_xlabel()
-    assert ax.patches[0].get_label() == "measured nucleotide rates (1e-08 to 3e-08)", (
+    assert ax.patches[0].get_label() == "measured human nucleotide rates (1e-08 to 3e-08)", (
         ax.patches[0].get_label())
 
 

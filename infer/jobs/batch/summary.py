@@ -10,7 +10,7 @@ from infer.jobs.batch.likelihood import _log_binomial_lattice
 from infer.jobs.batch.prior import SHetPrior, trapezoid_weights
 from infer.core.stats import Z975
 
-__all__ = ["posterior_summary", "FLAGS"]
+__all__ = ["posterior_summary", "FLAGS", "H_HALF_NOTE"]
 
 FLAGS = {
     1: ("zero-observed", "zero observed: only a lower bound on s_het"),
@@ -19,7 +19,20 @@ FLAGS = {
     4: ("at-prior-bound", "interval reaches the prior bound"),
     8: ("narrower-than-grid", "posterior narrower than two grid steps: raise --grid-points"),
     16: ("no-likelihood", "no grid point gives the data a positive probability"),
+    32: ("median-from-s-high", "zero observed and the likelihood is flat at the median (within "
+         "a factor 2 of its value at --s-high): the posterior median is set by the prior's "
+         "upper end, not by the data; read the lower bound"),
+    64: ("sample-exceeds-2Ne", "drift model: more allele copies sampled than the 2Ne "
+         "genes of the population; the binomial sample of a stationary frequency no "
+         "longer holds (sampling is effectively the whole population, or Ne is too low)"),
 }
+#: what every s_het in a batch assumes (docs/model.md): the balance q ~ mu/s_het holds for
+#: h = 1/2 (s_het = h·s the heterozygote's selection); for a recessive disorder (h ~ 0)
+#: it does not apply
+H_HALF_NOTE = ("s_het assumes selection on heterozygotes, q ~ mu/s_het with s = 2 s_het and "
+               "h = 1/2; for loci whose disorder is recessive (h ~ 0) heterozygotes are "
+               "barely selected, the balance is q ~ sqrt(mu/s), and these s_het values do "
+               "not apply")
 
 
 def _quantiles(density, settings, probabilities):
@@ -143,6 +156,13 @@ def posterior_summary(likelihood, log_scale, prior: SHetPrior, settings,
     flags |= np.where((lower <= u[0] + step) | (upper >= u[-1] - step), 4, 0)
     flags |= np.where(sd_log < 2.0 * step, 8, 0)
     flags |= np.where(ok, 0, 16)
+    # zero observed: the likelihood rises with s_het and flattens; a median where it is
+    # already within a factor 2 of its top-end value is set by where the prior stops
+    at_median = np.clip(np.searchsorted(u, median), 0, u.size - 1)
+    flat = likelihood[np.arange(k.size), at_median] >= 0.5 * likelihood[:, -1]
+    flags |= np.where((k == 0) & flat & ok, 32, 0)
+    if settings.model == "drift":
+        flags |= np.where(n > 2.0 * settings.Ne, 64, 0)
     nan = np.where(ok, 1.0, np.nan)
     return {"median": np.exp(median) * nan, "lower": np.exp(lower) * nan,
             "upper": np.exp(upper) * nan, "mean": mean * nan, "sd_log": sd_log * nan,

@@ -29,11 +29,12 @@ Findings (``code``: what raises it):
   ``frequency-too-high-for-approximation``, ``drift-dominates``: the formula the authors
   used against the exact root; the deterministic balance where 4Ne q_hat is small.
 * ``mutation-rate-outside-measured``, ``implied-mutation-rate-outside-measured``: mu
-  (claimed, or implied by the data) against the rates measured (see the ranges below).
+  (claimed, or implied by the data) against the human rates measured (see the ranges in
+  :mod:`infer.jobs.check.trade`); ``no-reference-mutation-rate`` for another species.
 * ``possible-heterozygote-advantage``, ``possible-drift-or-founder-effect``,
-  ``possible-ascertainment``, ``possible-non-equilibrium``: the classic alternative
-  explanations, as notes, when balance with a measured mutation rate cannot explain
-  the data.
+  ``possible-ascertainment``, ``possible-non-equilibrium``: the alternative
+  explanations, as ranked notes tailored to the data (quantified where the model can),
+  when balance with a measured mutation rate cannot explain the data.
 
 The findings are made in :mod:`infer.jobs.check.predictive` (observations, statements),
 :mod:`infer.jobs.check.intervals` (intervals implied by the data) and
@@ -150,7 +151,7 @@ def check_claim(claim: Claim, *, threshold: float = 0.01, draws: int = CLAIM_DRA
         findings += approximation_findings(claim, state, implied)
         findings += drift_findings(claim, state, implied)
         findings += trade_findings(claim, from_data)
-        findings += alternative_explanations(findings, implied)
+        findings += alternative_explanations(findings, implied, claim)
     order = {s: i for i, s in enumerate(SEVERITIES)}
     findings.sort(key=lambda f: order[f.severity])
     consistent = not any(f.severity == "error" for f in findings)

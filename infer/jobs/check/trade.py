@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 
-from infer.jobs.check.findings import Finding, claimed_text
+from infer.jobs.check.findings import Finding, claimed_text, fmt_small, signed_percent
 from infer.core.text import fmt
 from infer.files.claim import Claim
 from infer.model.balance_state import BalanceState
@@ -22,6 +22,9 @@ __all__ = [
     "drift_findings",
     "trade_findings",
     "alternative_explanations",
+    "observed_frequency",
+    "overdominance_advantage",
+    "is_human",
     "PER_LOCUS_RANGE",
     "PER_NUCLEOTIDE_RANGE",
     "TRADE_MARGIN",
@@ -103,12 +106,12 @@ def approximation_findings(claim: Claim, state: BalanceState, implied: dict) -> 
             findings.append(Finding(severity, "approximation-out-of-range",
                                     f"{used} is used outside its range ({approx.range_note}): "
                                     f"it gives {fmt(value)} against the exact {fmt(exact)} "
-                                    f"(relative error {100 * error:+.1f} %).", details))
+                                    f"(relative error {signed_percent(error, 1)}).", details))
         else:
             findings.append(Finding("note", "approximation-in-range",
                                     f"{used} is within its range here: {fmt(value)} against "
                                     f"the exact {fmt(exact)} (relative error "
-                                    f"{100 * error:+.2f} %).", details))
+                                    f"{signed_percent(error)}).", details))
         findings += _rare_allele_finding(claim, implied)
     return findings
 
@@ -168,7 +171,8 @@ def drift_findings(claim: Claim, state: BalanceState, implied: dict) -> list[Fin
         details["stationary"] = st
         return [Finding("note", "drift-model-used",
                         f"Under Wright's stationary density (Ne = {fmt(v['Ne'])}) the allele "
-                        f"frequency has mean {fmt(st['mean'])} and median {fmt(st['median'])}, "
+                        f"frequency has mean {fmt(st['mean'])} and median "
+                        f"{fmt_small(st['median'])}, "
                         f"against the deterministic q_hat = {fmt(implied['q_hat'])} "
                         f"(4Ne q_hat = {fmt(copies)}).", details)]
     if copies >= DRIFT_WARNING:
@@ -182,7 +186,9 @@ def drift_findings(claim: Claim, state: BalanceState, implied: dict) -> list[Fin
             v["Ne"], v["mu"], v["s"], v["h"], nu, claim.study.interval).items()}
         details["stationary"], details["nu_used"] = st, nu
         extra = (f"; under drift the stationary mean is {fmt(st['mean'])} and the median "
-                 f"{fmt(st['median'])}")
+                 f"{fmt_small(st['median'])}"
+                 + (" (most of the mass is at 0: the allele is usually absent)"
+                    if st["median"] < 1 / (2 * v["Ne"]) else ""))
     severity = "error" if copies < DRIFT_ERROR else "warning"
     return [Finding(severity, "drift-dominates",
                     f"The deterministic balance is used where 4Ne q_hat = {fmt(copies)} "
@@ -194,15 +200,24 @@ def drift_findings(claim: Claim, state: BalanceState, implied: dict) -> list[Fin
 # ------------------------------------------------------------- the trade's knowledge
 
 
+HUMAN = ("human", "humans", "homo sapiens", "man")
+
+
+def is_human(claim: Claim) -> bool:
+    """True when the claim is about humans (``[claimed] species`` absent or human)."""
+    return claim.species is None or claim.species.strip().lower() in HUMAN
+
+
 def _ranges(claim: Claim):
+    assumed = "" if claim.species else " (the claim names no species: human assumed)"
     if claim.mu_scale == "nucleotide":
         return (PER_NUCLEOTIDE_RANGE, NUCLEOTIDE_MARGIN,
-                "per-nucleotide rates measured in humans (about 1e-8 to 3e-8 per generation: "
-                "Nachman & Crowell 2000; Kong et al. 2012)")
+                "human per-nucleotide rates (about 1e-8 to 3e-8 per generation: "
+                f"Nachman & Crowell 2000; Kong et al. 2012){assumed}")
     return (PER_LOCUS_RANGE, TRADE_MARGIN,
             "per-locus rates measured for human disease loci (about 1e-6 to 1e-4: Morton, "
             "Crow & Muller 1956; achondroplasia ~2e-5, Oberklaid et al. 1979; Duchenne "
-            "6.3e-5, Yasuda & Kondo 1980; NF1 ~1e-4)")
+            f"6.3e-5, Yasuda & Kondo 1980; NF1 ~1e-4){assumed}")
 
 
 def trade_findings(claim: Claim, from_data: dict) -> list[Finding]:
@@ -218,6 +233,13 @@ def trade_findings(claim: Claim, from_data: dict) -> list[Finding]:
     -------
     list of Finding
     """
+    if not is_human(claim):
+        return [Finding("note", "no-reference-mutation-rate",
+                        f"No built-in range of mutation rates applies to {claim.species}: the "
+                        "ranges qhat knows were measured in humans (per locus about 1e-6 to "
+                        "1e-4, per nucleotide about 1e-8); compare mu = "
+                        f"{fmt(claim.values['mu'])} with rates published for that group.",
+                        {"species": claim.species, "mu": claim.values["mu"]})]
     (low, high), margin, text = _ranges(claim)
     findings = []
     mu = claim.values["mu"]
@@ -255,39 +277,86 @@ def trade_findings(claim: Claim, from_data: dict) -> list[Finding]:
     return findings
 
 
-_ALTERNATIVES = {
-    "excess": [
-        ("possible-heterozygote-advantage",
-         "Heterozygote advantage could keep the allele more common than recurrent mutation "
-         "can (the hypothesis with data for cystic fibrosis, Romeo et al. 1989, Hum. Genet. "
-         "84:1); carrier fitness or survival data would test it."),
-        ("possible-drift-or-founder-effect",
-         "Drift or a founder effect could have raised the allele in this population above "
-         "its balance value; frequencies in neighbouring populations would test it."),
-        ("possible-ascertainment",
-         "Ascertainment could inflate the observed frequency (cases collected through "
-         "clinics or affected families rather than all births); a population-based count "
-         "would test it."),
-        ("possible-non-equilibrium",
-         "The population may not be at equilibrium (for example selection recently relaxed "
-         "by treatment, or a recent admixture); the balance value assumes it has settled."),
-    ],
-    "deficit": [
-        ("possible-ascertainment",
-         "Under-ascertainment could lower the observed frequency (missed, miscarried or "
-         "undiagnosed cases, reduced penetrance); a complete population count would test it."),
-        ("possible-drift-or-founder-effect",
-         "Drift could hold the allele below its balance value in a small population; the "
-         "drift model (model = \"drift\" with Ne) gives the spread to expect."),
-        ("possible-non-equilibrium",
-         "The population may not be at equilibrium (for example selection recently "
-         "strengthened, or a recent expansion); the balance value assumes it has settled."),
-    ],
-}
+def observed_frequency(claim: Claim) -> float | None:
+    """The allele frequency the claim's first frequency observation measures, or None.
+
+    Allele copies give k/n; affected births give the frequency through the share they
+    measure (recessive: q = sqrt(share), dominant: q ~ share/2, affected sons: q_male),
+    at the observation's penetrance.
+    """
+    for obs in claim.study.observations:
+        st = obs.frequency_statistic()
+        if st is None or st.trials <= 0 or st.scale <= 0:
+            continue
+        share = st.count / st.trials / st.scale
+        if st.quantity in ("q_hat", "q_male", "q_female"):
+            return share
+        if st.quantity == "incidence_recessive":
+            return math.sqrt(share)
+        if st.quantity == "incidence_dominant":
+            return share / 2
+    return None
 
 
-def alternative_explanations(findings: list[Finding], implied: dict) -> list[Finding]:
-    """The classic alternatives, as possibilities, when balance cannot explain the data."""
+def overdominance_advantage(q: float, s2: float) -> float:
+    """Selection s1 against AA that holds q with fitnesses 1-s1 (AA), 1 (Aa), 1-s2 (aa).
+
+    The overdominant equilibrium is q = s1/(s1 + s2) (Fisher 1922, Proc. R. Soc. Edinb.
+    42:321; common practice), so s1 = q s2 / (1 - q).
+    """
+    return q * s2 / (1.0 - q)
+
+
+def _heterozygote_advantage(claim: Claim, q: float | None):
+    s = claim.values["s"]
+    if q is None or not 0 < q < 1 or claim.inheritance != "autosomal" or s <= 0:
+        return 2.0, ("Heterozygote advantage (overdominance) could keep the allele more "
+                     "common than recurrent mutation can; carrier fitness or survival data "
+                     "would test it."), {}
+    s1 = overdominance_advantage(q, s)
+    details = {"observed_frequency": q, "s_against_aa": s, "s1_needed": s1,
+               "formula": "q = s1/(s1 + s2), fitnesses 1-s1 (AA), 1 (Aa), 1-s2 (aa)"}
+    # a carrier advantage of a few per cent is the size seen where overdominance is
+    # documented (common practice); a larger one is a less likely explanation
+    score = 1.0 if s1 <= 0.05 else 2.5
+    return score, (f"Heterozygote advantage (overdominance) could hold the allele at the "
+                   f"observed frequency {fmt(q)}: with fitnesses 1-s1 (AA), 1 (Aa), 1-s2 "
+                   f"(aa) the equilibrium is q = s1/(s1+s2) (Fisher 1922), so with s2 = "
+                   f"s = {fmt(s)} carriers would need an advantage s1 = {fmt(s1)} over "
+                   "non-carriers; carrier fitness or survival data would test it."), details
+
+
+def _drift_chance(claim: Claim, q: float | None, direction: str, rng_seed: int):
+    """P(frequency beyond the observed) under Wright's density, or None (Ne unknown)."""
+    v = claim.values
+    if (q is None or not math.isfinite(v["Ne"]) or claim.inheritance != "autosomal"
+            or v["F"] != 0):
+        return None
+    import numpy as np
+
+    from infer.core.drift import stationary as drift
+
+    n = 4000
+    nu = max(v["nu"], 1e-9)  # Wright's density needs nu > 0; 1e-9 is the drift default
+    with np.errstate(all="ignore"):
+        x = drift.sample_stationary(np.random.default_rng(rng_seed), *(
+            np.full(n, value) for value in (v["Ne"], v["mu"], v["s"], v["h"], nu)))
+    beyond = x >= q if direction == "excess" else x <= q
+    return float(np.mean(beyond))
+
+
+def alternative_explanations(findings: list[Finding], implied: dict,
+                             claim: Claim | None = None) -> list[Finding]:
+    """The alternatives, as ranked possibilities, when balance cannot explain the data.
+
+    Tailored to the claim when it is given: heterozygote advantage (excess only)
+    quantified by the carrier advantage that would hold the observed frequency
+    (:func:`overdominance_advantage`); drift or a founder effect unless drift was
+    modelled, with the chance of the observed frequency under Wright's density when Ne
+    is known; ascertainment only when some observation counts affected people (a
+    genotyped sample is not ascertained through cases); non-equilibrium last. Each note
+    carries ``rank`` (1 = most likely first) in its details.
+    """
     direction = None
     for f in findings:
         if f.code == "implied-mutation-rate-outside-measured" and f.severity != "note":
@@ -301,5 +370,58 @@ def alternative_explanations(findings: list[Finding], implied: dict) -> list[Fin
         return []
     why = ("balance with a measured mutation rate does not explain the "
            + ("excess" if direction == "excess" else "shortfall") + " of the allele")
-    return [Finding("note", code, text, {"because": why, "direction": direction})
-            for code, text in _ALTERNATIVES[direction]]
+    observations = claim.study.observations if claim is not None else []
+    statistics = [s for s in (o.frequency_statistic() for o in observations) if s is not None]
+    counts_cases = not statistics or any(not s.of_alleles for s in statistics)
+    drift_modelled = claim is not None and claim.study.model == "drift"
+    q = observed_frequency(claim) if claim is not None else None
+    options = []  # (score, code, text, details): lower score = more likely
+    if direction == "excess":
+        if claim is not None:
+            options.append(("possible-heterozygote-advantage",
+                            *_heterozygote_advantage(claim, q)))
+        else:
+            options.append(("possible-heterozygote-advantage", 2.0,
+                            "Heterozygote advantage (overdominance) could keep the allele "
+                            "more common than recurrent mutation can; carrier fitness or "
+                            "survival data would test it.", {}))
+    if not drift_modelled:
+        chance = (_drift_chance(claim, q, direction, claim.seed) if claim is not None
+                  else None)
+        if direction == "excess":
+            text = ("Drift or a founder effect could have raised the allele in this "
+                    "population above its balance value; frequencies in neighbouring "
+                    "populations would test it")
+        else:
+            text = ("Drift could hold the allele below its balance value in a small "
+                    "population; the drift model (model = \"drift\" with Ne) gives the "
+                    "spread to expect")
+        details = {}
+        score = 2.0
+        if chance is not None:
+            details = {"Ne": claim.values["Ne"], "probability": chance,
+                       "observed_frequency": q}
+            word = "at least" if direction == "excess" else "at most"
+            text += (f" (under Wright's stationary density with Ne = {fmt(claim.values['Ne'])} "
+                     f"the chance of a frequency {word} the observed {fmt(q)} is "
+                     f"{fmt(chance, 2)})")
+            score = 0.5 if chance >= 0.05 else 3.0
+        options.append(("possible-drift-or-founder-effect", score, text + ".", details))
+    if counts_cases:
+        text = ("Ascertainment could inflate the observed frequency (cases collected through "
+                "clinics or affected families rather than all births); a population-based "
+                "count would test it." if direction == "excess" else
+                "Under-ascertainment could lower the observed frequency (missed, miscarried "
+                "or undiagnosed cases, reduced penetrance); a complete population count "
+                "would test it.")
+        options.append(("possible-ascertainment", 1.5, text, {}))
+    options.append(("possible-non-equilibrium", 4.0,
+                    "The population may not be at equilibrium (for example selection "
+                    + ("recently relaxed by treatment, or a recent admixture"
+                       if direction == "excess" else
+                       "recently strengthened, or a recent expansion")
+                    + "); the balance value assumes it has settled.", {}))
+    options.sort(key=lambda option: option[1])
+    return [Finding("note", code, f"({rank}) {text}",
+                    {"because": why, "direction": direction, "rank": rank, **details})
+            for rank, (code, _, text, details) in enumerate(options, start=1)]

@@ -15,13 +15,19 @@ import numpy as np
 from infer.core.stats import central_quantiles, two_sided_p_value
 from infer.core.text import CAUTION_LINE, fmt
 from infer.inference.sampling import SamplingRun
+from infer.jobs.estimate.direct_indirect import summarise_direct_indirect
+from infer.model.observations.registry import shared_birth_warnings
 from infer.model.priors.parsing import Fixed
 
 __all__ = [
     "EstimateResult",
     "summarise",
     "contraction",
+    "location",
     "identifiability",
+    "drift_frequency",
+    "predictive_counts",
+    "data_warnings",
 ]
 
 #: prior draws used for prior summaries, contraction and the prior predictive
@@ -56,7 +62,11 @@ class EstimateResult:
     def _shown_rows(self) -> list[tuple[str, dict]]:
         """(name, summary entry) of each free parameter, then q_hat."""
         rows = [(name, self.summary["parameters"][name]) for name in self.free]
-        if "q_hat" in self.summary["derived"]:
+        drift = self.summary.get("drift_frequency")
+        if drift:  # Wright's distribution: its mean and predictive interval
+            rows.append(("q_mean", {"median": drift["mean"], "lower": drift["lower"],
+                                    "upper": drift["upper"], "contraction": None}))
+        elif "q_hat" in self.summary["derived"]:
             rows.append(("q_hat", self.summary["derived"]["q_hat"]))
         return rows
 
@@ -118,10 +128,83 @@ def _log10(x):
         return np.log10(np.asarray(x, dtype=float))
 
 
+#: contraction at or above which the data decide a parameter (posterior sd < prior sd / 2)
+DECIDE_CONTRACTION = 0.5
+#: contraction below which the width is the prior's
+WEAK_CONTRACTION = 0.1
+#: the posterior median outside the prior's central half (its quartiles), or less than
+#: this share of the posterior's central interval inside the prior's, counts as moved
+MOVED_OVERLAP = 0.75
+
+
+def location(posterior_scaled: np.ndarray, prior_scaled: np.ndarray,
+             interval: float = 0.95) -> dict:
+    """Where the posterior sits within the prior, on the sampling scale.
+
+    Parameters
+    ----------
+    posterior_scaled, prior_scaled : numpy.ndarray
+        Draws on the sampling scale (log10 for log-scale priors).
+    interval : float
+        Probability of the central intervals compared.
+
+    Returns
+    -------
+    dict
+        ``prior_quantile`` (the prior probability below the posterior median),
+        ``overlap`` (the share of the posterior's central interval that lies inside the
+        prior's), ``shift`` (posterior median minus prior median, on the sampling scale)
+        and ``moved`` (median outside the prior's quartiles, or overlap below
+        :data:`MOVED_OVERLAP`).
+    """
+    post = np.asarray(posterior_scaled, dtype=float).ravel()
+    pri = np.asarray(prior_scaled, dtype=float).ravel()
+    post, pri = post[np.isfinite(post)], pri[np.isfinite(pri)]
+    if post.size < 10 or pri.size < 10:
+        return {"prior_quantile": None, "overlap": None, "shift": None, "moved": False}
+    tails = [(1 - interval) / 2, 0.5, (1 + interval) / 2]
+    lo, med, hi = np.quantile(post, tails)
+    plo, pmed, phi = np.quantile(pri, tails)
+    below = float(np.mean(pri < med) + 0.5 * np.mean(pri == med))
+    width = hi - lo
+    inside = max(0.0, min(hi, phi) - max(lo, plo))
+    overlap = float(inside / width) if width > 0 else float(plo <= med <= phi)
+    moved = not 0.25 <= below <= 0.75 or overlap < MOVED_OVERLAP
+    return {"prior_quantile": below, "overlap": overlap, "shift": float(med - pmed),
+            "moved": bool(moved)}
+
+
+def _ordinal(p: float) -> str:
+    n = min(99, max(1, int(round(100 * p))))
+    suffix = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{n}{suffix}"
+
+
+def _moved_text(name: str, where: dict, scale: str) -> str:
+    shift = where["shift"]
+    if scale == "log10":
+        factor = 10.0 ** shift
+        how = (f"{factor:.2g}× the prior's" if factor >= 1 else f"1/{1 / factor:.2g} of the "
+               "prior's")
+    else:
+        how = f"{'+' if shift >= 0 else '-'}{fmt(abs(shift))} from the prior's"
+    return (f"{name} (median {how}, at the prior's {_ordinal(where['prior_quantile'])} "
+            f"percentile; {100 * where['overlap']:.0f} % of its interval inside the prior's)")
+
+
 def identifiability(free: list[str], posterior: dict, prior: dict, parameters_summary: dict,
                     frequency_only: bool, inheritance: str,
                     recessive: bool = False) -> list[str]:
     """Plain statements of what the data inform and what the prior decides.
+
+    Each free parameter falls in one of three cases, judged by width and location
+    together: **the data decide** (contraction at least :data:`DECIDE_CONTRACTION`),
+    **the data move but do not narrow** (smaller contraction, but the posterior median
+    lies outside the prior's quartiles or much of the posterior's central interval lies
+    outside the prior's: :func:`location`), **the prior decides** (neither). A weak
+    narrowing (contraction in [0.1, 0.5)) without a move is said to inform weakly.
+    Location is read from ``parameters_summary[name]["location"]`` when present, else
+    computed from the draws on the parameter's ``scale``.
 
     A combination of parameters (on the log10 scale) is said to be identified when its
     contraction is high while its parts' contractions stay low: the data then fix the
@@ -130,19 +213,36 @@ def identifiability(free: list[str], posterior: dict, prior: dict, parameters_su
     h separately.
     """
     statements = []
-    informed = [n for n in free if parameters_summary[n]["contraction"] >= 0.5]
-    weak = [n for n in free if 0.1 <= parameters_summary[n]["contraction"] < 0.5]
-    prior_decides = [n for n in free if not parameters_summary[n]["contraction"] >= 0.1]
+    informed, weak, moved, prior_decides = [], [], [], []
+    for n in free:
+        entry = parameters_summary[n]
+        c = entry["contraction"]
+        where = entry.get("location")
+        if where is None:
+            to_scale = _log10 if entry.get("scale") == "log10" else np.asarray
+            where = location(to_scale(posterior[n]), to_scale(prior[n]))
+        if c is not None and c >= DECIDE_CONTRACTION:
+            informed.append(n)
+        elif where["moved"]:
+            moved.append(_moved_text(n, where, entry.get("scale", "linear")))
+        elif c is not None and c >= WEAK_CONTRACTION:
+            weak.append(n)
+        else:
+            prior_decides.append(n)
     if informed:
-        statements.append("The data inform " + ", ".join(informed) +
+        statements.append("The data decide " + ", ".join(informed) +
                           " (posterior sd less than half the prior sd).")
+    if moved:
+        statements.append("The data move but do not narrow " + "; ".join(moved) +
+                          ": the location is the data's, the width still mostly the prior's.")
     if weak:
         statements.append("The data inform " + ", ".join(weak) +
-                          " only weakly (contraction between 0.1 and 0.5).")
+                          " only weakly (contraction between 0.1 and 0.5, posterior centred "
+                          "where the prior is).")
     if prior_decides:
         its = "its interval" if len(prior_decides) == 1 else "their intervals"
         statements.append("The prior, not the data, decides " + ", ".join(prior_decides) +
-                          f": read {its} as the prior's.")
+                          f" (no narrowing, no move): read {its} as the prior's.")
     combos = []
     if {"mu", "s"} <= set(free) or ({"mu", "h"} <= set(free)):
         names = [n for n in ("mu", "s", "h") if n in free]
@@ -191,6 +291,12 @@ def derived_quantities(model, params: dict, state) -> dict[str, np.ndarray]:
         out["load_male"] = np.asarray(state.balance.load_male, dtype=float)
         out["load_female"] = np.asarray(state.balance.load_female, dtype=float)
         out["affected_male"] = affected_fraction("x-linked-male", state.q_male, F, penetrance)
+        from infer.core.x_linked import sex_specific_rates
+
+        # mu is the sex average per X chromosome, (2 mu_female + mu_male) / 3
+        mu_female, mu_male = sex_specific_rates(params["mu"], params["alpha"])
+        out["mu_female"] = np.asarray(mu_female, dtype=float)
+        out["mu_male"] = np.asarray(mu_male, dtype=float)
     else:
         out["load"] = np.asarray(state.balance.load, dtype=float)
         out["affected_dominant"] = affected_fraction("dominant", state.q, F, penetrance)
@@ -203,6 +309,142 @@ def derived_quantities(model, params: dict, state) -> dict[str, np.ndarray]:
         out["q_mean_drift"] = np.asarray(stats["mean"], dtype=float)
         out["q_median_drift"] = np.asarray(stats["median"], dtype=float)
     return out
+
+
+#: share of Wright's distribution below one copy in the population (x < 1/(2Ne)) above
+#: which the report says that most of the mass is at 0
+MASS_AT_ZERO = 0.5
+
+
+def drift_frequency(params: dict, x: np.ndarray, observations, interval: float) -> dict:
+    """What a drift study reports about the allele frequency: Wright's distribution.
+
+    Computed over posterior draws (Wright 1931, Genetics 16:97; 1937, PNAS 23:307:
+    the stationary density at constant Ne, :mod:`infer.core.drift.stationary`).
+
+    Parameters
+    ----------
+    params : dict of numpy.ndarray
+        Posterior draws of every life-cycle parameter (one row per draw).
+    x : numpy.ndarray
+        One draw of the allele frequency from Wright's density per row of ``params``
+        (the posterior predictive frequency).
+    observations : sequence of Observation
+        The study's observations; those whose likelihood is binomial in the frequency
+        (:meth:`~infer.model.observations.base.Observation.binomial_form`) give the
+        sample size and the observed frequency.
+    interval : float
+        Probability of the central intervals.
+
+    Returns
+    -------
+    dict
+        ``mean`` (of the frequency, averaged over the posterior: the mean of the
+        predictive mixture) with the central interval of the per-draw means
+        (``mean_lower``, ``mean_upper``); ``median``, ``lower``, ``upper`` of the
+        predictive frequency; ``below_one_copy`` (the share of it below 1/(2Ne)) and
+        ``mostly_at_zero``; ``samples``, one entry per binomial observation with
+        ``copies``, ``sample`` (allele copies), ``observed_frequency``, ``p_absent``
+        (probability that a new sample of that size carries no copy: median, mean and
+        interval over draws) and ``p_at_least_observed`` (predictive probability that the
+        frequency is at least the observed one, with its Monte Carlo standard error).
+    """
+    from infer.core.drift import stationary as drift
+
+    args = (params["Ne"], params["mu"], params["s"], params["h"], params["nu"])
+    tails = [(1 - interval) / 2, 0.5, (1 + interval) / 2]
+    x = np.asarray(x, dtype=float)
+    means = np.asarray(drift.stationary_summary(*args, interval=interval)["mean"], float)
+    lo, med, hi = (float(v) for v in np.quantile(x, tails))
+    mlo, mhi = (float(v) for v in np.quantile(means, [tails[0], tails[2]]))
+    below = float(np.mean(x < 1.0 / (2.0 * np.asarray(params["Ne"], float))))
+    samples = []
+    for obs in observations:
+        form = obs.binomial_form() if obs.depends_on_frequency else None
+        if form is None:
+            continue
+        k, n, _ = form
+        absent = np.asarray(drift.probability_absent(n, *args), dtype=float)
+        plo, pmed, phi = (float(v) for v in np.quantile(absent, tails))
+        observed = k / n if n else float("nan")
+        at_least = float(np.mean(x >= observed))
+        samples.append({
+            "label": obs.label, "copies": int(k), "sample": int(n),
+            "observed_frequency": observed,
+            "p_absent": {"mean": float(np.mean(absent)), "median": pmed, "lower": plo,
+                         "upper": phi},
+            "p_at_least_observed": at_least,
+            "p_at_least_observed_se": float(np.sqrt(at_least * (1 - at_least) / x.size)),
+        })
+    return {"mean": float(np.mean(means)), "mean_lower": mlo, "mean_upper": mhi,
+            "median": med, "lower": lo, "upper": hi, "below_one_copy": below,
+            "mostly_at_zero": below > MASS_AT_ZERO, "draws": int(x.size), "samples": samples}
+
+
+def predictive_counts(replicated: np.ndarray, interval: float = 0.95) -> dict:
+    """Median and central interval of replicated statistics, as integers when they are.
+
+    Parameters
+    ----------
+    replicated : numpy.ndarray
+        Draws of the statistic from the posterior predictive distribution.
+    interval : float
+        Probability of the central predictive interval.
+
+    Returns
+    -------
+    dict
+        ``predictive_median``, ``predictive_lower``, ``predictive_upper`` (the lower and
+        upper quantiles, ``numpy.quantile``'s "inverted_cdf" method so a count stays a
+        count) and ``integer`` (every replicate is a whole number).
+    """
+    rep = np.asarray(replicated, dtype=float).ravel()
+    rep = rep[np.isfinite(rep)]
+    if rep.size == 0:
+        return {"predictive_median": None, "predictive_lower": None,
+                "predictive_upper": None, "integer": False}
+    integer = bool(np.all(rep == np.round(rep)))
+    tails = [(1 - interval) / 2, 0.5, (1 + interval) / 2]
+    method = "inverted_cdf" if integer else "linear"
+    lo, med, hi = (float(v) for v in np.quantile(rep, tails, method=method))
+    if integer:
+        lo, med, hi = int(lo), int(med), int(hi)
+    return {"predictive_median": med, "predictive_lower": lo, "predictive_upper": hi,
+            "integer": integer}
+
+
+_FERTILITY_FIELDS = ("affected_people", "affected_children", "reference_people",
+                     "reference_children")
+
+
+def data_warnings(study) -> list[str]:
+    """Sentences about the data a practitioner expects flagged (summary ``data_warnings``).
+
+    Fertility of affected people at or above the reference (f = (affected children per
+    affected person) / (reference children per reference person) >= 1): the data show no
+    selection through fertility (the classic indirect estimate mu = s·q then says nothing;
+    common practice, e.g. late-onset disorders whose onset follows reproduction).
+    """
+    found = []
+    for obs in study.observations:
+        table = obs.as_table()
+        if not all(name in table for name in _FERTILITY_FIELDS):
+            continue
+        people, children = table["affected_people"], table["affected_children"]
+        ref_people, ref_children = table["reference_people"], table["reference_children"]
+        if not (people > 0 and ref_people > 0 and ref_children > 0):
+            continue
+        f = (children / people) / (ref_children / ref_people)
+        if f >= 1:
+            found.append(
+                f'observation "{obs.label}": affected people had {f:.3g} times the '
+                "reference fertility (f >= 1), so fertility shows no selection against the "
+                "allele; s is then near 0 from these data and the estimate of mu rests on "
+                "the other observations and the priors. Typical of late-onset disorders "
+                "(onset after the reproductive years), where selection through fertility "
+                "is weak and mutation-selection balance with s from fertility does not "
+                "apply")
+    return found
 
 
 def _subsample(n_total: int, n_max: int, rng: np.random.Generator) -> np.ndarray:
@@ -249,6 +491,8 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
                                        p.sampling_scale(prior[name])),
             "fixed": False, "prior": p.describe(), "scale": p.sampling_scale_name,
             "defaulted": name in study.defaulted,
+            "location": location(p.sampling_scale(posterior[name]),
+                                 p.sampling_scale(prior[name]), interval),
         }
     for name, p in study.parameters.items():
         if isinstance(p, Fixed):
@@ -296,6 +540,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
             "expected_median": float(np.nanmedian(expected)) if np.isfinite(expected).any()
             else None,
             "p_value": two_sided_p_value(rep, observed),
+            **predictive_counts(rep, 0.95),
         })
 
     frequency_only = all(o.frequency_statistic() is not None for o in model.observations)
@@ -329,6 +574,13 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
         "parameters": parameters, "derived": derived_summary, "diagnostics": diagnostics,
         "predictive": predictive, "identifiability": statements,
     }
+    summary["data_warnings"] = data_warnings(study) + shared_birth_warnings(study.observations)
+    classic = summarise_direct_indirect(study.observations, sub_params["alpha"], rng, interval)
+    if classic is not None:
+        summary["direct_indirect"] = classic
+    if model.drift:
+        summary["drift_frequency"] = drift_frequency(sub_params, x, model.observations,
+                                                     interval)
     if verification is not None:
         summary["grid"] = {"quantiles": grid.quantiles, "evaluations": grid.points,
                            "settled": bool(grid.settled), "agrees": verified is True,

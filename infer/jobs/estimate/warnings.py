@@ -80,7 +80,9 @@ def estimate_warnings(summary: dict) -> list[str]:
     In order: one per message of ``diagnostics.messages`` (prefixed ``not converged:``
     when ``diagnostics.converged`` is false), the exact cross-check disagreeing when no
     message says so, then one per observation the fitted model reproduces poorly
-    (two-sided predictive p-value below :data:`POOR_FIT_BELOW`).
+    (two-sided predictive p-value below :data:`POOR_FIT_BELOW`), then the flags on the
+    data (``data_warnings``: fertility at or above the reference; an ``affected`` and a
+    ``sporadic`` observation over the same births, which one ``registry`` should hold).
 
     Parameters
     ----------
@@ -99,6 +101,7 @@ def estimate_warnings(summary: dict) -> list[str]:
     found += [f'observation "{p["label"]}": two-sided predictive p-value {p["p_value"]:.3g} '
               f"is below {POOR_FIT_BELOW:g}; the fitted model reproduces it poorly, so "
               "balance may not explain it" for p in poorly_reproduced(summary)]
+    found += list(summary.get("data_warnings") or ())
     return found
 
 

@@ -31,7 +31,18 @@ from infer.model.observations.base import (
 from infer.model.observations.share import FrequencyStatistic
 from infer.validate import choice, format_number, probability, quote_value, whole_count
 
-__all__ = ["AlleleCount", "GenotypeCount", "Affected"]
+__all__ = ["AlleleCount", "GenotypeCount", "Affected", "affected_share"]
+
+
+def affected_share(mode: str, state, penetrance: float = 1.0) -> np.ndarray:
+    """Probability that a birth is affected, per row of a ``BalanceState``.
+
+    ``balance.affected_fraction``: penetrance × (Aa + aa) (dominant), × aa (recessive)
+    with the state's inbreeding F, × q_male among male births (x-linked-male).
+    """
+    if mode == "x-linked-male":
+        return balance.affected_fraction(mode, state.q_male, 0.0, penetrance)
+    return balance.affected_fraction(mode, state.q, state.params["F"], penetrance)
 
 
 @dataclass
@@ -269,9 +280,7 @@ class Affected(Observation):
         return {"affected": affected, "total": total, "mode": mode, "penetrance": penetrance}
 
     def _fraction(self, state):
-        if self.mode == "x-linked-male":
-            return balance.affected_fraction(self.mode, state.q_male, 0.0, self.penetrance)
-        return balance.affected_fraction(self.mode, state.q, state.params["F"], self.penetrance)
+        return affected_share(self.mode, state, self.penetrance)
 
     def _log_likelihood(self, state):
         return log_binomial(self.affected, self.total, self._fraction(state))

@@ -17,13 +17,17 @@ Kinds (``kind = ...`` in a study's ``[[observations]]``):
   frequency of the affected genotypes.
 * ``sporadic`` -- ``cases`` of new mutations among ``births``; the direct method,
   binomial with 2·mu·penetrance (dominant) or mu_female·penetrance (x-linked-male).
+* ``registry`` -- ``affected`` of ``births``, ``sporadic`` of them new mutations
+  (optional ``familial_unknown``); the multinomial over new-mutation, inherited and
+  unaffected births (one registry, one likelihood).
 * ``fertility`` -- children of affected and of reference people; the conditional
   binomial that removes the unknown baseline fertility.
 * ``estimate`` -- an outside estimate of mu, s or Ne with a published 95 % interval;
   a normal term on the log scale.
 
 Each kind is one module: :mod:`~infer.model.observations.frequency` (the first three),
-:mod:`~infer.model.observations.sporadic`, :mod:`~infer.model.observations.fertility` and
+:mod:`~infer.model.observations.sporadic`, :mod:`~infer.model.observations.registry`,
+:mod:`~infer.model.observations.fertility` and
 :mod:`~infer.model.observations.published`. This module holds only the registry
 :data:`KINDS` and :func:`parse_observation`: import a kind's class from its own module.
 """
@@ -37,6 +41,7 @@ from infer.model.observations.base import Observation
 from infer.model.observations.fertility import Fertility
 from infer.model.observations.frequency import Affected, AlleleCount, GenotypeCount
 from infer.model.observations.published import Estimate
+from infer.model.observations.registry import Registry
 from infer.model.observations.sporadic import Sporadic
 from infer.validate import choice, quote_value
 
@@ -50,6 +55,7 @@ KINDS: dict[str, type[Observation]] = {
         GenotypeCount,
         Affected,
         Sporadic,
+        Registry,
         Fertility,
         Estimate,
     )

@@ -24,7 +24,32 @@ from infer.model.observations.base import (
 )
 from infer.validate import format_number, probability, whole_count
 
-__all__ = ["Sporadic"]
+__all__ = ["Sporadic", "new_mutation_rate", "parse_new_mutation_mode"]
+
+
+def new_mutation_rate(mode: str, params: dict, penetrance: float = 1.0) -> np.ndarray:
+    """Probability that a birth is an affected new-mutation case, per row (the direct method).
+
+    ``2·mu·penetrance`` for ``"dominant"`` (either parental gamete may carry the new
+    mutation); ``mu_female·penetrance`` per male birth for ``"x-linked-male"`` (a son gets
+    only his mother's X; ``balance.sex_specific_rates``).
+    """
+    mu = np.asarray(params["mu"], dtype=float)
+    if mode == "dominant":
+        return 2.0 * mu * penetrance
+    mu_female, _ = balance.sex_specific_rates(mu, params["alpha"])
+    return np.asarray(mu_female, dtype=float) * penetrance
+
+
+def parse_new_mutation_mode(table: dict, field: str, inheritance: str, what: str) -> str:
+    """The ``mode`` of a table counting new-mutation cases: ``recessive`` is refused."""
+    if table["mode"] == "recessive":
+        raise InputError(
+            '"recessive" is not allowed: a new recessive mutation does not show in its '
+            f'carrier, so {what} need mode = "dominant" or "x-linked-male"',
+            field=f"{field}.mode",
+        )
+    return parse_mode(table, field, inheritance, NEW_MUTATION_MODES)
 
 
 @dataclass
@@ -55,25 +80,15 @@ class Sporadic(Observation):
         births = whole_count(table["births"], f"{field}.births")
         at_least_one(births, f"{field}.births")
         check_not_above(cases, births, "births", f"{field}.cases")
-        if table["mode"] == "recessive":
-            raise InputError(
-                '"recessive" is not allowed: a new recessive mutation does not show in its '
-                'carrier, so sporadic cases need mode = "dominant" or "x-linked-male"',
-                field=f"{field}.mode",
-            )
-        mode = parse_mode(table, field, inheritance, NEW_MUTATION_MODES)
+        mode = parse_new_mutation_mode(table, field, inheritance, "sporadic cases")
         penetrance = probability(table.get("penetrance", 1.0), f"{field}.penetrance")
         if penetrance == 0 and cases > 0:
             raise InputError("0 cannot produce sporadic cases", field=f"{field}.penetrance")
         return {"cases": cases, "births": births, "mode": mode, "penetrance": penetrance}
 
     def rate(self, params) -> np.ndarray:
-        """Probability that a birth is a sporadic case, per row."""
-        mu = np.asarray(params["mu"], dtype=float)
-        if self.mode == "dominant":
-            return 2.0 * mu * self.penetrance
-        mu_female, _ = balance.sex_specific_rates(mu, params["alpha"])
-        return np.asarray(mu_female, dtype=float) * self.penetrance
+        """Probability that a birth is a sporadic case, per row (:func:`new_mutation_rate`)."""
+        return new_mutation_rate(self.mode, params, self.penetrance)
 
     def _log_likelihood(self, state):
         return log_binomial(self.cases, self.births, self.rate(state.params))

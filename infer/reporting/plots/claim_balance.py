@@ -8,6 +8,9 @@ the observed fraction with its exact interval. Build it inside
 
 from __future__ import annotations
 
+import numpy as np
+
+from infer.jobs.check.trade import is_human
 from infer.reporting.plots.common import plain_log_formatters
 from infer.reporting.plots.save import new_figure
 
@@ -29,22 +32,25 @@ def claim_balance_figure(result):
     """
     claim, curve = result.claim, result.balance_curve
     figure = new_figure(figsize=(6.4, 4.2), dpi=100)
-    figure.subplots_adjust(left=0.13, right=0.97, bottom=0.13, top=0.88)
+    figure.subplots_adjust(left=0.15, right=0.97, bottom=0.13, top=0.88)
     ax = figure.subplots()
     low, high = curve.measured_range
-    ax.axvspan(low, high, color="tab:green", alpha=0.12, lw=0,
-               label=f"measured {curve.mu_scale} rates ({low:g} to {high:g})")
+    if is_human(claim):  # the built-in ranges were measured in humans
+        ax.axvspan(low, high, color="tab:green", alpha=0.12, lw=0,
+                   label=f"measured human {curve.mu_scale} rates ({low:g} to {high:g})")
     ax.plot(curve.mu, curve.values, color="tab:blue", lw=1.8,
             label=f"exact balance, {', '.join(f'{p} = {claim.values[p]:g}' for p in ('s', 'h'))}")
     ax.plot([curve.claimed_mu], [curve.claimed_value], "o", color="tab:red", ms=7, mec="black",
             label=f"claimed mu = {curve.claimed_mu:.3g}")
     band = curve.band
+    low_y, high_y = _y_range(curve)
     if band is not None:
-        ax.axhspan(max(band.lower, 1e-300), band.upper, color="tab:orange", alpha=0.3, lw=0,
+        ax.axhspan(max(band.lower, low_y), band.upper, color="tab:orange", alpha=0.3, lw=0,
                    label=f"observed {band.count}/{band.total} "
                          f"({100 * band.level:g} % Clopper-Pearson)")
     ax.set_xscale("log")
     ax.set_yscale("log")
+    ax.set_ylim(low_y, high_y)
     for axis in (ax.xaxis, ax.yaxis):
         major, minor = plain_log_formatters()
         axis.set_major_formatter(major)
@@ -56,5 +62,38 @@ def claim_balance_figure(result):
     ax.tick_params(labelsize=8)
     figure.suptitle(f"{claim.title}\nbalance under the claim (others held at claimed values)",
                     fontsize=9)
+    _fit_left_margin(figure, ax)
     return figure
+
+
+def _y_range(curve) -> tuple[float, float]:
+    """Log-axis limits around the curve, the claimed point and the observed band.
+
+    A band whose lower end is 0 (no copy observed) starts at the axis floor, which the
+    curve sets: at most six decades below the smallest value shown.
+    """
+    values = np.concatenate([np.asarray(curve.values, float).ravel(),
+                             [curve.claimed_value]])
+    band = curve.band
+    if band is not None:
+        values = np.concatenate([values, [band.lower, band.upper]])
+    values = values[np.isfinite(values) & (values > 0)]
+    if not values.size:
+        return 1e-12, 1.0
+    top = min(float(values.max()) * 3, 1.0) if values.max() <= 1 else float(values.max()) * 3
+    shown = values[values >= top * 1e-12]
+    bottom = max(float(shown.min()) / 3, top * 1e-12)
+    return bottom, top
+
+
+def _fit_left_margin(figure, ax) -> None:
+    """Widen the left margin until the y label is inside the figure (drawn with Agg)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    FigureCanvasAgg(figure).draw()
+    extent = ax.yaxis.get_tightbbox(figure.canvas.get_renderer())
+    if extent is not None and extent.x0 < 4:
+        width = figure.bbox.width
+        left = figure.subplotpars.left + (4 - extent.x0) / width
+        figure.subplots_adjust(left=min(left, 0.4))
 

@@ -33,18 +33,48 @@ def _observed_bands(result) -> list[tuple[str, float, float, str]]:
 
     Each observation's share of allele copies
     (:meth:`~infer.model.observations.base.Observation.frequency_statistic`), with its
-    95 % Clopper-Pearson interval.
+    95 % Clopper-Pearson interval; at an X-linked locus also the affected share of sons,
+    which measures the frequency in sons (divided by the penetrance, ``scale``).
     """
     bands = []
+    x_linked = result.study.inheritance == "x-linked"
     for obs in result.study.observations:
         statistic = obs.frequency_statistic()
-        if statistic is None or not statistic.of_alleles or statistic.trials <= 0:
+        if statistic is None or statistic.trials <= 0:
+            continue
+        sons = x_linked and statistic.quantity == "q_male" and statistic.scale > 0
+        if not (statistic.of_alleles or sons):
             continue
         k, n = statistic.count, statistic.trials
         lower, upper = clopper_pearson(k, n)
-        bands.append((statistic.quantity, lower, upper,
+        scale = 1.0 if statistic.of_alleles else float(statistic.scale)
+        bands.append((statistic.quantity, lower / scale, upper / scale,
                       f"observed {obs.label}: {k}/{n} (95 % Clopper-Pearson)"))
     return bands
+
+
+def _at_median(result, draws, name):
+    if name in draws:
+        return float(np.median(draws[name]))
+    return float(getattr(result.study.parameters.get(name), "value",
+                         _FIXED_DEFAULTS.get(name, 0.0)))
+
+
+def _stationary_band(result, draws, against, x, level):
+    """Wright's stationary distribution along ``x`` at the posterior medians of the rest.
+
+    Returns (lower, median, upper, mean) arrays (Wright 1931; 1937, via
+    :mod:`infer.core.drift.stationary`).
+    """
+    from infer.core.drift import stationary as drift
+
+    column = {n: np.full(x.size, _at_median(result, draws, n)) for n in
+              ("Ne", "mu", "s", "h", "nu")}
+    column[against] = np.asarray(x, float)
+    args = [column[n] for n in ("Ne", "mu", "s", "h", "nu")]
+    with np.errstate(all="ignore"):
+        stats = drift.stationary_summary(*args, interval=level)
+    return stats["lower"], stats["median"], stats["upper"], stats["mean"]
 
 
 def _balance_curves(result, draws, against, x, targets):
@@ -89,12 +119,18 @@ def balance_curve_figure(result):
     else:
         x = np.geomspace(max(fixed["s"] / 30, 1e-6), min(1.0, fixed["s"] * 30), 121)
     bands = _observed_bands(result)
-    targets = sorted({band[0] for band in bands}) or ["q_hat"]
+    x_linked = result.study.inheritance == "x-linked"
+    # an X-linked study sees the frequency in sons (affected sons, hemizygous)
+    targets = sorted({band[0] for band in bands}) or (["q_male"] if x_linked else ["q_hat"])
     curves = _balance_curves(result, draws, against, x, targets)
     level = _level(result)
+    drift = result.study.model == "drift"
     figure, axes = _panel_figure(1, 1, 5.6, 3.6, right=0.3)
     ax = axes[0, 0]
     values = [np.array([b[2] for b in bands])]
+    if drift:
+        s_lower, s_median, s_upper, s_mean = _stationary_band(result, draws, against, x, level)
+        values.append(np.concatenate([s_mean, s_upper]))
     for number, (target, curve) in enumerate(curves.items()):
         colour = ("tab:blue", "tab:purple", "tab:green")[number % 3]
         with np.errstate(all="ignore"), _quiet():
@@ -102,6 +138,8 @@ def balance_curve_figure(result):
                                                   [(1 - level) / 2, 0.5, (1 + level) / 2],
                                                   axis=0)
         name = _TARGET_LEGEND.get(target, target)
+        if drift:
+            name = f"deterministic {name} (no drift)"
         ax.fill_between(x, lower, upper, color=colour, alpha=0.2, lw=0,
                         label=f"{name}: {round(100 * level)} % band over posterior draws")
         ax.plot(x, median, color=colour, lw=1.8, label=f"{name}: posterior median")
@@ -114,6 +152,19 @@ def balance_curve_figure(result):
     values = _finite(np.concatenate(values))
     values = values[values > 0]
     floor = float(values.min()) / 3 if values.size else 1e-12
+    if drift:
+        ne = _at_median(result, draws, "Ne")
+        # below one copy in 2Ne genes the allele is absent: the band's floor is the axis
+        one_copy = 1.0 / (2.0 * ne)
+        floor = min(floor, one_copy / 3)
+        ax.fill_between(x, np.maximum(np.nan_to_num(s_lower), floor),
+                        np.maximum(np.nan_to_num(s_upper), floor), color="tab:gray",
+                        alpha=0.25, lw=0, hatch="//",
+                        label=f"Wright's stationary distribution: central "
+                              f"{round(100 * level)} % (other parameters at posterior medians)")
+        ax.plot(x, s_mean, color="black", lw=1.4, ls="--", label="Wright's stationary mean")
+        ax.axhline(one_copy, color="tab:gray", lw=0.8, ls=":",
+                   label=f"one copy in the population, 1/(2Ne) = {one_copy:.3g}")
     for number, (_, lower, upper, legend) in enumerate(bands):
         ax.axhspan(max(lower, floor), upper, alpha=0.25, lw=0, label=legend,
                    color=("tab:orange", "tab:red", "tab:brown", "tab:olive")[number % 4])
@@ -125,10 +176,17 @@ def balance_curve_figure(result):
     else:
         ax.set_xlabel(axis_label("h"), fontsize=9)
         ax.set_xlim(0.0, 1.0)
-    ax.set_ylabel(axis_label("q_hat"), fontsize=9)
+    if drift and values.size:
+        ax.set_ylim(floor, min(1.0, float(values.max()) * 3))
+    ax.set_ylabel("deleterious allele frequency in newborn sons (q_male)" if targets == ["q_male"]
+                  else axis_label("q_hat"), fontsize=9)
     ax.legend(fontsize=7, loc="best" if len(bands) < 3 else "upper left", framealpha=0.8)
     _tidy(ax)
-    _title(figure, f"Mutation-selection balance: exact q_hat against {against}", result)
+    what = "q_male (frequency in newborn sons)" if targets == ["q_male"] else "q_hat"
+    heading = (f"Drift and balance: Wright's stationary distribution and the deterministic "
+               f"{what} against {against}" if drift
+               else f"Mutation-selection balance: exact {what} against {against}")
+    _title(figure, heading, result)
     return figure
 
 

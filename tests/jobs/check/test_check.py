@@ -113,8 +113,13 @@ def test_cystic_fibrosis_argument_is_an_error(tmp_path):
             f"{code} is an alternative explanation, a note, not {finding.severity}")
         assert " could " in finding.message or " may " in finding.message, (
             f"{code} should be worded as a possibility: {finding.message}")
-    assert "Romeo et al. 1989" in _finding(result, "possible-heterozygote-advantage").message, (
-        "the heterozygote-advantage note should cite Romeo et al. 1989")
+    # issue 13: no disease-specific citation; the advantage that would hold q is given
+    # (overdominant equilibrium q = s1/(s1+s2), Fisher 1922: s1 = q s2/(1-q), q = sqrt(4e-4))
+    advantage = _finding(result, "possible-heterozygote-advantage")
+    assert "Fisher 1922" in advantage.message and "Romeo" not in advantage.message, (
+        f"the heterozygote-advantage note should be generic and quantified: {advantage.message}")
+    assert advantage.details["s1_needed"] == pytest.approx(0.02 / 0.98, rel=0.01), (
+        "s1 = q s2/(1-q) with q = 0.02, s2 = 1 (Fisher 1922)")
 
 
 def test_cystic_fibrosis_with_a_measured_rate_misses_the_incidence(tmp_path):

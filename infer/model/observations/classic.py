@@ -1,0 +1,107 @@
+"""The counts the classic direct and indirect estimates of mu read from a study.
+
+:func:`classic_counts` pools, for one mode, the new-mutation cases (``sporadic`` and
+``registry``), the affected births (``affected`` and ``registry``) and the fertility
+counts (``fertility``) of a study's observations. The estimates themselves are computed
+by :mod:`infer.jobs.estimate.direct_indirect`; only this module looks at the kinds.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from infer.core.choices import NEW_MUTATION_MODES
+from infer.model.observations.fertility import Fertility
+from infer.model.observations.frequency import Affected
+from infer.model.observations.registry import Registry
+from infer.model.observations.sporadic import Sporadic
+
+__all__ = ["ClassicCounts", "classic_counts"]
+
+
+@dataclass(frozen=True)
+class ClassicCounts:
+    """Pooled counts of one mode (``"dominant"`` or ``"x-linked-male"``).
+
+    Attributes
+    ----------
+    mode : str
+    cases, case_births : int
+        New-mutation cases and the births they were counted in.
+    case_exposure : float
+        Sum of births × penetrance over the new-mutation observations.
+    affected, affected_births : int
+        Affected births and the births they were counted in.
+    affected_exposure : float
+        Sum of births × penetrance over the affected-birth observations.
+    affected_people, affected_children, reference_people, reference_children : int
+        The fertility counts, summed over the fertility observations of the mode.
+    case_labels, affected_labels, fertility_labels : tuple of str
+        The observations each part comes from.
+    nested : bool
+        The new-mutation cases and the affected births come from the same ``registry``
+        observations, so the cases are a subset of the affected births.
+    known_status : int
+        Affected births whose parents' status is known (nested only; else 0).
+    """
+
+    mode: str
+    cases: int
+    case_births: int
+    case_exposure: float
+    affected: int
+    affected_births: int
+    affected_exposure: float
+    affected_people: int
+    affected_children: int
+    reference_people: int
+    reference_children: int
+    case_labels: tuple[str, ...]
+    affected_labels: tuple[str, ...]
+    fertility_labels: tuple[str, ...]
+    nested: bool = False
+    known_status: int = 0
+
+
+def classic_counts(observations) -> ClassicCounts | None:
+    """The pooled counts of the first mode with new-mutation, affected and fertility data.
+
+    Returns
+    -------
+    ClassicCounts or None
+        None when no mode has all three (new-mutation cases, affected births and
+        fertility), so neither both estimates nor their ratio can be formed.
+    """
+    for mode in NEW_MUTATION_MODES:
+        cases = [o for o in observations if isinstance(o, (Sporadic, Registry))
+                 and o.mode == mode]
+        affected = [o for o in observations if isinstance(o, (Affected, Registry))
+                    and o.mode == mode]
+        fertility = [o for o in observations if isinstance(o, Fertility) and o.mode == mode]
+        if not (cases and affected and fertility):
+            continue
+        nested = (all(isinstance(o, Registry) for o in cases)
+                  and {id(o) for o in cases} == {id(o) for o in affected})
+        return ClassicCounts(
+            mode=mode,
+            cases=sum(o.sporadic if isinstance(o, Registry) else o.cases for o in cases),
+            case_births=sum(o.births for o in cases),
+            case_exposure=float(sum(o.births * o.penetrance for o in cases)),
+            affected=sum(o.affected for o in affected),
+            affected_births=sum(_births(o) for o in affected),
+            affected_exposure=float(sum(_births(o) * o.penetrance for o in affected)),
+            affected_people=sum(o.affected_people for o in fertility),
+            affected_children=sum(o.affected_children for o in fertility),
+            reference_people=sum(o.reference_people for o in fertility),
+            reference_children=sum(o.reference_children for o in fertility),
+            case_labels=tuple(o.label for o in cases),
+            affected_labels=tuple(o.label for o in affected),
+            fertility_labels=tuple(o.label for o in fertility),
+            nested=nested,
+            known_status=sum(o.affected - o.unknown for o in cases) if nested else 0,
+        )
+    return None
+
+
+def _births(observation) -> int:
+    return observation.births if isinstance(observation, Registry) else observation.total
