@@ -70,7 +70,9 @@ def summary():
               {"Ne": NE, "mu": MU, "s": S, "h": H, "nu": NU, "F": 0.0, "alpha": 1.0}.items()}
     x = drift.sample_stationary(np.random.default_rng(5), params["Ne"], params["mu"],
                                 params["s"], params["h"], params["nu"])
-    return drift_frequency(params, x, study.observations, 0.95)
+    means = drift.stationary_summary(params["Ne"], params["mu"], params["s"], params["h"],
+                                     params["nu"])["mean"]
+    return drift_frequency(params, x, means, study.observations, 0.95)
 
 
 def test_mean_against_wright(summary):

@@ -32,6 +32,7 @@ import math
 import numpy as np
 
 from infer.model.observations.classic import ClassicCounts, classic_counts
+from infer.model.observations.fertility import observed_relative_fertility
 
 __all__ = ["DRAWS", "direct_indirect", "direct_estimate", "indirect_estimate",
            "summarise_direct_indirect"]
@@ -142,8 +143,8 @@ def direct_indirect(counts: ClassicCounts, alpha, rng: np.random.Generator,
     # X ~ Binomial(T, A w / (A w + R)) gives w = theta R / ((1 - theta) A)
     f = theta / (1.0 - theta) * c.reference_people / c.affected_people
     indirect = indirect_estimate(f, incidence, c.mode)
-    f_point = ((c.affected_children / c.affected_people)
-               / (c.reference_children / c.reference_people))
+    f_point = observed_relative_fertility(c.affected_people, c.affected_children,
+                                          c.reference_people, c.reference_children)
     incidence_point = c.affected / c.affected_exposure
     indirect_point = indirect_estimate(f_point, incidence_point, c.mode)
     with np.errstate(divide="ignore", invalid="ignore"):

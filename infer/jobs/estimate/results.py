@@ -316,7 +316,8 @@ def derived_quantities(model, params: dict, state) -> dict[str, np.ndarray]:
 MASS_AT_ZERO = 0.5
 
 
-def drift_frequency(params: dict, x: np.ndarray, observations, interval: float) -> dict:
+def drift_frequency(params: dict, x: np.ndarray, means: np.ndarray, observations,
+                    interval: float) -> dict:
     """What a drift study reports about the allele frequency: Wright's distribution.
 
     Computed over posterior draws (Wright 1931, Genetics 16:97; 1937, PNAS 23:307:
@@ -329,6 +330,9 @@ def drift_frequency(params: dict, x: np.ndarray, observations, interval: float) 
     x : numpy.ndarray
         One draw of the allele frequency from Wright's density per row of ``params``
         (the posterior predictive frequency).
+    means : numpy.ndarray
+        The mean of Wright's density at each row (``q_mean_drift`` of
+        :func:`derived_quantities`).
     observations : sequence of Observation
         The study's observations; those whose likelihood is binomial in the frequency
         (:meth:`~infer.model.observations.base.Observation.binomial_form`) give the
@@ -354,7 +358,7 @@ def drift_frequency(params: dict, x: np.ndarray, observations, interval: float) 
     args = (params["Ne"], params["mu"], params["s"], params["h"], params["nu"])
     tails = [(1 - interval) / 2, 0.5, (1 + interval) / 2]
     x = np.asarray(x, dtype=float)
-    means = np.asarray(drift.stationary_summary(*args, interval=interval)["mean"], float)
+    means = np.asarray(means, dtype=float)
     lo, med, hi = (float(v) for v in np.quantile(x, tails))
     mlo, mhi = (float(v) for v in np.quantile(means, [tails[0], tails[2]]))
     below = float(np.mean(x < 1.0 / (2.0 * np.asarray(params["Ne"], float))))
@@ -413,38 +417,13 @@ def predictive_counts(replicated: np.ndarray, interval: float = 0.95) -> dict:
             "integer": integer}
 
 
-_FERTILITY_FIELDS = ("affected_people", "affected_children", "reference_people",
-                     "reference_children")
-
-
 def data_warnings(study) -> list[str]:
     """Sentences about the data a practitioner expects flagged (summary ``data_warnings``).
 
-    Fertility of affected people at or above the reference (f = (affected children per
-    affected person) / (reference children per reference person) >= 1): the data show no
-    selection through fertility (the classic indirect estimate mu = s·q then says nothing;
-    common practice, e.g. late-onset disorders whose onset follows reproduction).
+    Each observation says what its own data undercut
+    (:meth:`~infer.model.observations.base.Observation.data_warnings`).
     """
-    found = []
-    for obs in study.observations:
-        table = obs.as_table()
-        if not all(name in table for name in _FERTILITY_FIELDS):
-            continue
-        people, children = table["affected_people"], table["affected_children"]
-        ref_people, ref_children = table["reference_people"], table["reference_children"]
-        if not (people > 0 and ref_people > 0 and ref_children > 0):
-            continue
-        f = (children / people) / (ref_children / ref_people)
-        if f >= 1:
-            found.append(
-                f'observation "{obs.label}": affected people had {f:.3g} times the '
-                "reference fertility (f >= 1), so fertility shows no selection against the "
-                "allele; s is then near 0 from these data and the estimate of mu rests on "
-                "the other observations and the priors. Typical of late-onset disorders "
-                "(onset after the reproductive years), where selection through fertility "
-                "is weak and mutation-selection balance with s from fertility does not "
-                "apply")
-    return found
+    return [line for obs in study.observations for line in obs.data_warnings()]
 
 
 def _subsample(n_total: int, n_max: int, rng: np.random.Generator) -> np.ndarray:
@@ -579,8 +558,9 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     if classic is not None:
         summary["direct_indirect"] = classic
     if model.drift:
-        summary["drift_frequency"] = drift_frequency(sub_params, x, model.observations,
-                                                     interval)
+        summary["drift_frequency"] = drift_frequency(sub_params, x,
+                                                     derived_flat["q_mean_drift"],
+                                                     model.observations, interval)
     if verification is not None:
         summary["grid"] = {"quantiles": grid.quantiles, "evaluations": grid.points,
                            "settled": bool(grid.settled), "agrees": verified is True,

@@ -275,6 +275,14 @@ class Observation:
         """One line for reports."""
         raise NotImplementedError
 
+    def data_warnings(self) -> list[str]:
+        """Sentences about this observation's data a practitioner expects flagged.
+
+        None by default; a kind returns one where its data alone undercut the analysis
+        (fertility at or above the reference, for instance).
+        """
+        return []
+
     def as_table(self) -> dict:
         """The observation as a study-file table (``parse_observation`` reads it back)."""
         table = {"kind": self.kind, "label": self.label}

@@ -20,7 +20,19 @@ from infer.model.observations.base import (
 )
 from infer.validate import whole_count
 
-__all__ = ["Fertility"]
+__all__ = ["Fertility", "observed_relative_fertility"]
+
+
+def observed_relative_fertility(affected_people: int, affected_children: int,
+                                reference_people: int, reference_children: int) -> float:
+    """Relative fertility (children per affected / per reference person); nan if undefined.
+
+    The point estimate of the relative fertility w (the maximum of the conditional
+    binomial likelihood of :class:`Fertility`; common practice).
+    """
+    if not (affected_people > 0 and reference_people > 0 and reference_children > 0):
+        return float("nan")
+    return (affected_children / affected_people) / (reference_children / reference_people)
 
 
 @dataclass
@@ -66,6 +78,29 @@ class Fertility(Observation):
         if self.mode == "dominant":
             return 1.0 - np.asarray(params["h"], dtype=float) * s
         return 1.0 - s
+
+    @property
+    def observed_f(self) -> float:
+        """The observed relative fertility (:func:`observed_relative_fertility`)."""
+        return observed_relative_fertility(self.affected_people, self.affected_children,
+                                           self.reference_people, self.reference_children)
+
+    def data_warnings(self) -> list[str]:
+        """Fertility at or above the reference (f >= 1) shows no selection.
+
+        The classic indirect estimate then has no selection to balance (common practice;
+        typical of late-onset disorders whose onset follows reproduction).
+        """
+        f = self.observed_f
+        if not f >= 1:
+            return []
+        return [f'observation "{self.label}": affected people had {f:.3g} times the '
+                "reference fertility (f >= 1), so fertility shows no selection against the "
+                "allele; s is then near 0 from these data and the estimate of mu rests on "
+                "the other observations and the priors. Typical of late-onset disorders "
+                "(onset after the reproductive years), where selection through fertility "
+                "is weak and mutation-selection balance with s from fertility does not "
+                "apply"]
 
     @property
     def total_children(self) -> int:
