@@ -125,7 +125,9 @@ def balance_curve_figure(result):
     curves = _balance_curves(result, draws, against, x, targets)
     level = _level(result)
     drift = result.study.model == "drift"
-    figure, axes = _panel_figure(1, 1, 5.6, 3.6, right=0.3)
+    # a drift panel carries up to nine legend entries: they go below the axes, off the data
+    figure, axes = _panel_figure(1, 1, 5.6, 3.6, right=0.3,
+                                 bottom=0.6 + (1.3 if drift else 0.0))
     ax = axes[0, 0]
     values = [np.array([b[2] for b in bands])]
     if drift:
@@ -180,7 +182,11 @@ def balance_curve_figure(result):
         ax.set_ylim(floor, min(1.0, float(values.max()) * 3))
     ax.set_ylabel("deleterious allele frequency in newborn sons (q_male)" if targets == ["q_male"]
                   else axis_label("q_hat"), fontsize=9)
-    ax.legend(fontsize=7, loc="best" if len(bands) < 3 else "upper left", framealpha=0.8)
+    if drift:
+        ax.legend(fontsize=7, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncols=1,
+                  frameon=False)
+    else:
+        ax.legend(fontsize=7, loc="best" if len(bands) < 3 else "upper left", framealpha=0.8)
     _tidy(ax)
     what = "q_male (frequency in newborn sons)" if targets == ["q_male"] else "q_hat"
     heading = (f"Drift and balance: Wright's stationary distribution and the deterministic "
