@@ -10,11 +10,16 @@ Prints:
    posterior (ln s_het and the mu deviate z sampled jointly; 32 walkers, run in blocks
    of 1,000 steps until 50 autocorrelation times), measured on a few loci in this run and
    extrapolated to 20,000; goal >= 100x;
-4. peak resident memory (ru_maxrss of a child process) of the engine on 20,000 and
-   200,000 loci and of the whole command on the same files: it should grow only by the
-   per-locus columns (~0.2 kB a locus), not by the grid (S = 400 doubles = 3.2 kB a locus).
+4. peak resident memory and wall time of the whole command (``qhat batch``, --jobs 1,
+   log-uniform prior, default chunk size) on invented loci files of 20,000, 200,000 and
+   2,000,000 rows (``make_batch_demo.simulate``), each run a fresh process whose own
+   ru_maxrss is read with os.wait4; medians of --repeats runs (the 2M file: --big-repeats,
+   1 by default, as one run takes many minutes). The command streams the file (blocks on
+   disk, loci.csv written chunk by chunk), so the peak should stay flat: the 2M-row peak
+   within ~1.5x of the 20k-row one. Figures are kept in benchmarks/results/batch.md.
 
 Run: .venv/bin/python benchmarks/batch.py [--skip-drift] [--emcee-loci 4] [--repeats 3]
+     .venv/bin/python benchmarks/batch.py --memory-only [--sizes 20000 200000 2000000]
 """
 
 from __future__ import annotations
@@ -38,23 +43,6 @@ _spec = importlib.util.spec_from_file_location("make_batch_demo", DEMO)
 demo = importlib.util.module_from_spec(_spec)
 _spec.loader.exec_module(demo)
 
-ENGINE = """
-import importlib.util, resource, sys, time
-sys.path.insert(0, {root!r})
-spec = importlib.util.spec_from_file_location("d", {demo!r})
-d = importlib.util.module_from_spec(spec)
-spec.loader.exec_module(d)
-from infer.jobs.batch import run as batch
-data = d.simulate({loci}, 1)
-sigma = batch.mu_sigma_from_interval(data["mu_lower"], data["mu_upper"])
-before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-t = time.perf_counter()
-r = batch.analyse(data["observed"], data["sampled"], data["mu"], sigma,
-                  batch.BatchSettings(), prior="empirical", chunk_size=512)
-print(before, resource.getrusage(resource.RUSAGE_SELF).ru_maxrss, time.perf_counter() - t)
-"""
-
-
 def _children_cpu():
     usage = resource.getrusage(resource.RUSAGE_CHILDREN)
     return usage.ru_utime + usage.ru_stime
@@ -68,15 +56,6 @@ def run_cli(source, out, *extra):
     if done.returncode:
         sys.exit(f"qhat batch failed: {done.stderr}")
     return time.perf_counter() - start, _children_cpu() - cpu
-
-
-def cli_memory(source, out, *extra):
-    """Peak resident memory (kB) of the whole command, run in a child process."""
-    argv = ["batch", str(source), "--out", str(out), "--force", "--quiet", *extra]
-    code = (f"import resource\nfrom infer.cli import main\nmain({argv!r})\n"
-            "print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)")
-    done = subprocess.run([PYTHON, "-c", code], capture_output=True, text=True, check=True)
-    return int(done.stdout.split()[-1])
 
 
 def _report(label, runs, goal=None):
@@ -135,8 +114,15 @@ def main(argv=None):
     parser.add_argument("--skip-drift", action="store_true")
     parser.add_argument("--emcee-loci", type=int, default=4)
     parser.add_argument("--repeats", type=int, default=3)
+    parser.add_argument("--memory-only", action="store_true", help="only section 4")
+    parser.add_argument("--sizes", type=int, nargs="+", default=[20_000, 200_000, 2_000_000])
+    parser.add_argument("--big-repeats", type=int, default=1,
+                        help="runs of files of 1,000,000 rows or more")
     args = parser.parse_args(argv)
     work = Path(tempfile.mkdtemp(prefix="qhat-batch-bench-"))
+    if args.memory_only:
+        memory(work, args.sizes, args.repeats, args.big_repeats)
+        return
     data20 = demo.simulate(20_000, 1)
     source20 = work / "loci20k.csv"
     demo.write_csv(source20, data20)
@@ -163,18 +149,66 @@ def main(argv=None):
                 [run_cli(source20, work / "out", "--jobs", "2", "--model", "drift",
                          "--Ne", "10000")], "300 s")
 
-    print("peak resident memory (ru_maxrss of a child process):")
-    for loci in (20_000, 200_000):
-        code = ENGINE.format(root=str(ROOT), demo=str(DEMO), loci=loci)
-        out = subprocess.run([PYTHON, "-c", code], capture_output=True, text=True,
-                             check=True).stdout.split()
-        before, peak, seconds = int(out[0]), int(out[1]), float(out[2])
+    memory(work, args.sizes, args.repeats, args.big_repeats)
+
+
+def measured_run(source, out, *extra):
+    """(peak resident MB, wall seconds) of one ``qhat batch`` process (os.wait4 rusage)."""
+    start = time.perf_counter()
+    child = subprocess.Popen([PYTHON, "-m", "infer", "batch", str(source), "--out", str(out),
+                              "--force", "--quiet", *extra], stdout=subprocess.DEVNULL,
+                             stderr=subprocess.PIPE)
+    _, status, usage = os.wait4(child.pid, 0)
+    wall = time.perf_counter() - start
+    error = child.stderr.read().decode()
+    child.stderr.close()
+    if status:
+        sys.exit(f"qhat batch failed ({status}): {error}")
+    return usage.ru_maxrss / 1024, wall
+
+
+def write_loci(path, loci, piece=200_000):
+    """An invented loci file of ``loci`` rows, simulated ``piece`` rows at a time (seeds
+    1, 2, ...; a seed whose draw puts a frequency above 1 is passed over), genes
+    numbered through."""
+    import csv
+
+    with open(path, "w", newline="", encoding="utf-8") as handle:
+        writer = csv.writer(handle, lineterminator="\n")
+        writer.writerow(["locus", "observed", "sampled", "mu", "mu_lower", "mu_upper"])
+        done, seed = 0, 1
+        while done < loci:
+            size = min(piece, loci - done)
+            try:
+                data = demo.simulate(size, seed)
+            except ValueError:        # a rare draw of q above 1: take the next seed
+                seed += 1
+                continue
+            for i in range(size):
+                writer.writerow([f"GENE{done + i + 1:07d}", int(data["observed"][i]),
+                                 int(data["sampled"][i]), f"{data['mu'][i]:.6g}",
+                                 f"{data['mu_lower'][i]:.6g}", f"{data['mu_upper'][i]:.6g}"])
+            done, seed = done + size, seed + 1
+
+
+def memory(work, sizes, repeats, big_repeats):
+    """Section 4: peak memory and wall time against the number of rows."""
+    print("peak resident memory of qhat batch (--jobs 1, log-uniform; os.wait4 ru_maxrss):",
+          flush=True)
+    first = None
+    for loci in sizes:
         source = work / f"loci{loci}.csv"
-        demo.write_csv(source, demo.simulate(loci, 1))
-        whole = cli_memory(source, work / "memout", "--prior", "empirical")
-        print(f"  {loci:>7,} loci: engine {peak / 1024:.0f} MB (after making the inputs "
-              f"{before / 1024:.0f} MB; {seconds:.1f} s in 1 process, empirical prior); "
-              f"whole command {whole / 1024:.0f} MB", flush=True)
+        write_loci(source, loci)
+        runs = [measured_run(source, work / "memout")
+                for _ in range(big_repeats if loci >= 1_000_000 else repeats)]
+        peak = statistics.median(r[0] for r in runs)
+        wall = statistics.median(r[1] for r in runs)
+        first = first or peak
+        print(f"  {loci:>9,} rows: peak {peak:.0f} MB (runs "
+              f"{', '.join(f'{r[0]:.0f}' for r in runs)}), {peak / first:.2f}x the first size; "
+              f"wall {wall:.1f} s (runs {', '.join(f'{r[1]:.1f}' for r in runs)}), "
+              f"load {os.getloadavg()[0]:.1f}", flush=True)
+        source.unlink()
 
 
 if __name__ == "__main__":

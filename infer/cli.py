@@ -24,7 +24,7 @@ COMMANDS = {
     "check": "a reviewer's consistency check of published numbers (exit 3 if inconsistent)",
     "batch": "many loci at once: per-locus heterozygous selection from allele counts",
     "simulate": "Wright-Fisher forward simulation under the same life cycle",
-    "demo": "run every scenario in data_demo/ and write their reports",
+    "demo": "run every invented scenario shipped with qhat and write their reports",
 }
 
 EXIT_OK, EXIT_INPUT, EXIT_INCONSISTENT = 0, 2, 3

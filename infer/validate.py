@@ -10,9 +10,15 @@ names the set (``must be one of ...``, :func:`one_of`).  Used by
 from __future__ import annotations
 
 import math
+import os
 from typing import Any
 
 from infer.errors import InputError
+
+#: the largest count a study, claim or batch row may give: counts, and sums of a few of
+#: them, stay exact in float64 (integers are exact up to 2**53, about 9.0e15) and within
+#: the int64 counts numpy's binomial sampler takes
+MAX_COUNT = 10**15
 
 __all__ = [
     "quote_value",
@@ -20,6 +26,8 @@ __all__ = [
     "one_of",
     "real_number",
     "whole_count",
+    "MAX_COUNT",
+    "machine_memory",
     "probability",
     "choice",
     "check_keys",
@@ -75,6 +83,12 @@ def whole_count(value: Any, field: str) -> int:
         raise InputError(f"{quote_value(value)} is not a whole number", field=field)
     if number < 0:
         raise InputError(f"{quote_value(value)} is negative", field=field)
+    if number > MAX_COUNT:
+        raise InputError(
+            f"{quote_value(value)} is above {MAX_COUNT:.0e}, the largest count accepted "
+            "(counts must stay exact in float64, whose integers are exact up to 2**53)",
+            field=field,
+        )
     return int(number)
 
 
@@ -102,3 +116,26 @@ def check_keys(table: dict, required, optional, field: str) -> None:
     for key in required:
         if key not in table:
             raise InputError("missing", field=f"{field}.{key}")
+
+
+def machine_memory() -> int | None:
+    """Bytes of memory this process may use: physical memory, or a smaller cgroup limit.
+
+    ``os.sysconf`` page size x physical pages, lowered to the cgroup (v2 ``memory.max`` or
+    v1 ``memory.limit_in_bytes``) limit when one is set; None when neither is known.
+    """
+    sizes = []
+    try:
+        sizes.append(os.sysconf("SC_PAGE_SIZE") * os.sysconf("SC_PHYS_PAGES"))
+    except (AttributeError, OSError, ValueError):
+        pass
+    for path in ("/sys/fs/cgroup/memory.max", "/sys/fs/cgroup/memory/memory.limit_in_bytes"):
+        try:
+            with open(path, encoding="ascii") as handle:
+                text = handle.read().strip()
+        except (OSError, UnicodeDecodeError):
+            continue
+        if text.isdigit():
+            sizes.append(int(text))
+    sizes = [size for size in sizes if size > 0]
+    return min(sizes) if sizes else None

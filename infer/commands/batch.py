@@ -17,7 +17,7 @@ import time
 
 from infer.commands import options as checks
 from infer.core.choices import MODELS
-from infer.core.text import caution_sentence
+from infer.core.text import caution_sentence, shown
 
 __all__ = ["add_arguments", "run"]
 
@@ -111,6 +111,42 @@ def _probe_scheduler(address: str) -> None:
                                   f"{address} ({problem})")
 
 
+#: rows of the loci file read into one stored block (a whole number of chunks)
+BLOCK_ROWS = 65536
+#: chunks submitted ahead of the one being collected, per worker (memory flat in the loci)
+AHEAD_PER_WORKER = 2
+
+
+def bounded_map(submit, function, tasks, ahead):
+    """``map`` over an executor keeping at most ``ahead`` tasks submitted and unfinished.
+
+    ``Executor.map`` submits every task at once (holding every chunk in memory); this
+    takes tasks from the iterator only as results are collected, in order. Tasks still
+    pending when the caller stops are cancelled.
+    """
+    import collections
+
+    pending = collections.deque()
+    try:
+        for task in tasks:
+            pending.append(submit(function, task))
+            if len(pending) >= ahead:
+                yield _collect(pending.popleft())
+        while pending:
+            yield _collect(pending.popleft())
+    finally:
+        for future in pending:
+            future.cancel()
+
+
+def _collect(future):
+    result = future.result()
+    release = getattr(future, "release", None)   # a dask future frees its result
+    if release is not None:
+        release()
+    return result
+
+
 @contextlib.contextmanager
 def _executor(args, scratch=None):
     """Yield a ``map``-like function running chunks locally, in processes, or on dask."""
@@ -128,10 +164,9 @@ def _executor(args, scratch=None):
                                       f"{args.scheduler} ({error})") from None
 
         def dask_map(function, tasks):
-            futures = client.map(function, list(tasks), pure=False)
-            for future in futures:      # in submission order, so sums have a fixed order
-                yield future.result()
-                future.release()
+            # in submission order, so sums have a fixed order
+            return bounded_map(lambda f, task: client.submit(f, task, pure=False), function,
+                               tasks, AHEAD_PER_WORKER * 8)
 
         try:
             yield dask_map
@@ -150,11 +185,44 @@ def _executor(args, scratch=None):
             from infer.reporting.folder import note_work_path
 
             note_work_path(scratch, util.get_temp_dir())
-        with ProcessPoolExecutor(max_workers=args.jobs, mp_context=context,
-                                 initializer=watch_parent, initargs=(os.getpid(),)) as pool:
-            yield lambda function, tasks: pool.map(function, tasks)
+        pool = ProcessPoolExecutor(max_workers=args.jobs, mp_context=context,
+                                   initializer=watch_parent, initargs=(os.getpid(),))
+        try:
+            yield lambda function, tasks: bounded_map(pool.submit, function, tasks,
+                                                      AHEAD_PER_WORKER * args.jobs)
+        except BaseException:
+            # interrupted (SIGTERM, Ctrl-C) or failed: end the workers now rather than
+            # wait for the chunks they are computing (shutdown would wait for them)
+            workers = list((getattr(pool, "_processes", None) or {}).values())
+            pool.shutdown(wait=False, cancel_futures=True)
+            for process in workers:
+                process.terminate()
+            for process in workers:
+                process.join(timeout=1.0)
+            _end_forkserver()     # it would still fork a worker asked for before the signal
+            raise
+        else:
+            pool.shutdown(wait=True)
     else:
         yield map
+
+
+def _end_forkserver() -> None:
+    """End this process's multiprocessing forkserver, if it started one.
+
+    A worker requested just before an interrupt (while the forkserver was still
+    importing) would be forked after qhat has gone and fail noisily on its stderr.
+    The forkserver's pid is private to multiprocessing, hence the guarded look-up.
+    """
+    import signal
+    from multiprocessing import forkserver
+
+    pid = getattr(getattr(forkserver, "_forkserver", None), "_forkserver_pid", None)
+    if pid:
+        try:
+            os.kill(pid, signal.SIGTERM)
+        except OSError:
+            pass
 
 
 def watch_parent(pid: int, every: float = 0.5) -> None:
@@ -196,49 +264,115 @@ def run(args) -> int:
         return _run(args, out, started)
 
 
+def _loci_blocks(scan, store, mu_level):
+    """The blocks of a streamed loci file as dicts of columns, mu's sigma added."""
+    from infer.jobs.batch.run import mu_sigma_from_interval
+
+    for index in range(scan.blocks):
+        block = store[index]
+        yield {"names": block.names, "observed": block.observed, "sampled": block.sampled,
+               "mu": block.mu, "mu_lower": block.mu_lower, "mu_upper": block.mu_upper,
+               "mu_sigma": mu_sigma_from_interval(block.mu_lower, block.mu_upper, mu_level)}
+
+
 def _run(args, out, started) -> int:
-    """Read the loci, compute, write the report (inside ``terminate_as_interrupt``)."""
+    """Read the loci, compute, write the report (inside ``terminate_as_interrupt``).
+
+    The loci file is read once into a disk-backed store of blocks (validated whole
+    before any work), then computed chunk by chunk with loci.csv written as the chunks
+    finish: memory is flat in the number of loci.
+    """
+    from infer.errors import InputError
+    from infer.reporting.folder import work_folder
+
+    scratch = None
+    try:
+        with work_folder("qhat-batch-") as scratch:
+            count, report = _in_work_folder(args, out, started, scratch)
+    except OSError as error:      # the temporary store (a full disk, a file size limit)
+        raise InputError(f"cannot write the temporary folder {scratch or ''}: "
+                         f"{error.strerror or error}; nothing was written to {out}") from None
+    if not args.quiet:
+        print(f"qhat batch: {count} loci -> {out} ({report.result.prior.describe()}; "
+              f"{report.flagged} flags; {time.perf_counter() - started:.1f} s). "
+              f"{caution_sentence()}")
+    return 0
+
+
+def _in_work_folder(args, out, started, scratch):
+    """Read into a store in ``scratch``, compute, write; (loci, BatchReport)."""
+    import numpy as np
+
     from infer.jobs.batch import run as batch
     from infer.jobs.batch.chunk_store import ChunkStore
-    from infer.jobs.batch.report import summarise_batch
-    from infer.files.loci import describe_skipped, read_loci
-    from infer.reporting.batch_report import write_batch_report
+    from infer.files.loci import describe_skipped, scan_loci
 
-    table = read_loci(args.loci, skip_bad_rows=args.skip_bad_rows)
-    for skipped in table.skipped:
-        print(f"qhat: warning: {table.source}: {describe_skipped(skipped)}", file=sys.stderr)
-    read_done = time.perf_counter()
-    mu_sigma = batch.mu_sigma_from_interval(table.mu_lower, table.mu_upper, args.mu_level)
-    settings = batch.BatchSettings(model=args.model, Ne=args.Ne, nu=args.nu, s_low=args.s_low,
-                                   s_high=args.s_high, grid_points=args.grid_points,
-                                   interval=args.interval)
-    chunks = -(-len(table.names) // args.chunk_size) * (2 if args.prior == "empirical" else 1)
+    block_rows = args.chunk_size * max(1, BLOCK_ROWS // args.chunk_size)
+    with ChunkStore(scratch, prefix="loci-") as loci_store:
+        scan = scan_loci(args.loci, loci_store, skip_bad_rows=args.skip_bad_rows,
+                         block_rows=block_rows)
+        for skipped in scan.skipped:
+            print(f"qhat: warning: {shown(scan.source)}: {shown(describe_skipped(skipped))}",
+                  file=sys.stderr)
+        read_done = time.perf_counter()
+        largest = max(float(np.max(b["mu_sigma"], initial=0.0))
+                      for b in _loci_blocks(scan, loci_store, args.mu_level))
+        settings = batch.with_half_width(
+            batch.BatchSettings(model=args.model, Ne=args.Ne, nu=args.nu, s_low=args.s_low,
+                                s_high=args.s_high, grid_points=args.grid_points,
+                                interval=args.interval),
+            np.array([largest]), np.array([scan.max_observed]))
+        per_pass = -(-scan.count // args.chunk_size)
+        report = _compute(args, out, scan, loci_store, scratch, settings, per_pass,
+                          read_done - started)
+    return scan.count, report
+
+
+def _compute(args, out, scan, loci_store, scratch, settings, per_pass, read_seconds):
+    """Both passes over the stored blocks, loci.csv written chunk by chunk; the report."""
+    from infer.jobs.batch import run as batch
+    from infer.jobs.batch.chunk_store import ChunkStore
+    from infer.jobs.batch.report import BatchTally
+    from infer.reporting.batch_report import open_batch_report
+
+    def chunks():
+        return batch.recut(_loci_blocks(scan, loci_store, args.mu_level), args.chunk_size)
+
+    empirical = args.prior == "empirical"
     bar = None
     if not args.quiet and sys.stderr.isatty():
         from tqdm import tqdm
 
-        bar = tqdm(total=chunks, unit="chunk", desc="qhat batch", file=sys.stderr)
-    from infer.reporting.folder import work_folder
-
+        bar = tqdm(total=per_pass * (2 if empirical else 1), unit="chunk", desc="qhat batch",
+                   file=sys.stderr)
+    progress = bar.update if bar else None
+    computing = time.perf_counter()
     try:
-        with (work_folder("qhat-batch-") as scratch, _executor(args, scratch) as map_chunks,
-              ChunkStore(scratch) as store):
-            result = batch.analyse(table.observed, table.sampled, table.mu, mu_sigma, settings,
-                                   prior=args.prior, chunk_size=args.chunk_size,
-                                   map_chunks=map_chunks, progress=bar.update if bar else None,
-                                   store=store)
+        with (_executor(args, scratch) as map_chunks, ChunkStore(scratch) as store,
+              BatchTally() as tally):
+            coarse = store if empirical and settings.model == "drift" else None
+            fitted, prior = None, batch.SHetPrior()
+            if empirical:
+                fitted = batch.fit_prior(chunks(), settings, map_chunks=map_chunks,
+                                         progress=progress, store=coarse)
+                prior = fitted.prior
+            with open_batch_report(out, force=args.force) as written:
+                for chunk, part in batch.posteriors(chunks(), settings, prior,
+                                                    map_chunks=map_chunks, progress=progress,
+                                                    store=coarse):
+                    written.add(chunk, part)
+                    tally.add(chunk["observed"], chunk["mu_sigma"], part)
+                result = batch.BatchResult(loci=None, settings=settings, prior=prior,
+                                           fitted=fitted, chunks=per_pass,
+                                           log_marginal=tally.log_marginal)
+                timings = {"read_seconds": round(read_seconds, 3),
+                           "compute_seconds": round(time.perf_counter() - computing, 3)}
+                report = tally.report(scan, result, requested_prior=args.prior,
+                                      mu_level=args.mu_level, chunk_size=args.chunk_size,
+                                      jobs=args.jobs, scheduler=args.scheduler,
+                                      timings=timings)
+                written.finish(report)
     finally:
         if bar is not None:
             bar.close()
-    computed = time.perf_counter()
-    timings = {"read_seconds": round(read_done - started, 3),
-               "compute_seconds": round(computed - read_done, 3)}
-    report = summarise_batch(table, result, mu_sigma, requested_prior=args.prior,
-                             mu_level=args.mu_level, chunk_size=args.chunk_size, jobs=args.jobs,
-                             scheduler=args.scheduler, timings=timings)
-    write_batch_report(report, out, force=args.force)
-    if not args.quiet:
-        print(f"qhat batch: {len(table.names)} loci -> {out} ({result.prior.describe()}; "
-              f"{report.flagged} flags; {time.perf_counter() - started:.1f} s). "
-              f"{caution_sentence()}")
-    return 0
+    return report

@@ -1,18 +1,39 @@
-"""``qhat demo``: run every invented scenario in data_demo/ and write its report."""
+"""``qhat demo``: run every invented scenario shipped with qhat and write its report.
+
+The scenarios are package data (``infer.data_demo``, the repository's ``data_demo/``
+folder), found with :mod:`importlib.resources`, so the demo runs from any folder.
+"""
 
 from __future__ import annotations
 
+import contextlib
 import sys
 from pathlib import Path
+
+#: the package that holds the invented scenarios (data_demo/ in the repository)
+DEMO_PACKAGE = "infer.data_demo"
+#: the scenario files: studies and claims (*.toml), loci (*.csv) and their notes (*.md)
+SCENARIO_SUFFIXES = (".toml", ".csv", ".md")
 
 
 def add_arguments(parser) -> None:
     """Register the options of ``qhat demo``."""
-    parser.add_argument("--data", default="data_demo", metavar="DIR",
-                        help="folder of demo scenarios (default: data_demo)")
+    parser.add_argument("--data", default=None, metavar="DIR",
+                        help="folder of scenarios (default: the ones shipped with qhat)")
     parser.add_argument("--out", default="reports", metavar="DIR",
                         help="folder for the reports (default: reports)")
+    parser.add_argument("--copy", default=None, metavar="DIR",
+                        help="copy the shipped scenarios into DIR (to read or edit) and stop")
     parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
+
+
+@contextlib.contextmanager
+def shipped_scenarios():
+    """The folder of the shipped scenarios as a real path, for the time of the block."""
+    from importlib.resources import as_file, files
+
+    with as_file(files(DEMO_PACKAGE)) as folder:
+        yield Path(folder)
 
 
 def _scenarios(data: Path) -> dict[str, list[Path]]:
@@ -23,37 +44,79 @@ def _scenarios(data: Path) -> dict[str, list[Path]]:
     return {"estimate": studies, "check": claims, "batch": sorted(data.glob("*.csv"))}
 
 
+def _shown(path: Path) -> str:
+    """``path`` as the user would type it: relative to the working folder when inside it."""
+    try:
+        return str(path.relative_to(Path.cwd()))
+    except (ValueError, OSError):
+        return str(path)
+
+
+def _copy(target: Path) -> int:
+    """Copy the shipped scenario files into ``target``; never replace a file."""
+    from infer.errors import InputError
+
+    with shipped_scenarios() as data:
+        files = sorted(p for p in data.iterdir() if p.suffix in SCENARIO_SUFFIXES)
+        taken = [p.name for p in files if (target / p.name).exists()]
+        if taken:
+            raise InputError(f"{target / taken[0]} exists; nothing was copied",
+                             source="--copy")
+        try:
+            target.mkdir(parents=True, exist_ok=True)
+            for path in files:
+                with open(target / path.name, "xb") as out:
+                    out.write(path.read_bytes())
+        except OSError as error:
+            raise InputError(f"cannot write {error.filename or target}: "
+                             f"{error.strerror or error}", source="--copy") from None
+    print(f"copied {len(files)} demo scenario files into {target}/ "
+          f"(run them with: qhat demo --data {target})")
+    return 0
+
+
 def run(args) -> int:
     """Run ``qhat demo``."""
+    if args.copy is not None:
+        return _copy(Path(args.copy))
+    if args.data is None:
+        with shipped_scenarios() as data:
+            return _run_all(data, Path(args.out), args.quiet)
+    from infer.errors import InputError
+
+    data = Path(args.data)
+    if not data.is_dir():
+        raise InputError(f"{data} is not a folder", source="--data")
+    return _run_all(data, Path(args.out), args.quiet)
+
+
+def _run_all(data: Path, out: Path, quiet: bool) -> int:
+    """Run every scenario of ``data``; reports go to ``out/<file name>``."""
     from infer.errors import InputError
     from infer.reporting.folder import safe_name
 
-    data, out = Path(args.data), Path(args.out)
-    if not data.is_dir():
-        raise InputError(f"{data} is not a folder (run qhat demo from the project folder)",
-                         source="--data")
-    out.mkdir(parents=True, exist_ok=True)
     jobs = _scenarios(data)
     if not any(jobs.values()):
         raise InputError(f"no scenarios (*.toml, *.csv) in {data}", source="--data")
+    out.mkdir(parents=True, exist_ok=True)
     from infer.cli import main as qhat
 
     failures = 0
     for path in jobs["estimate"]:
         target = out / safe_name(path.stem)
-        print(f"== qhat estimate {path} --out {target}", flush=True)
+        print(f"== qhat estimate {_shown(path)} --out {target}", flush=True)
         argv = ["estimate", str(path), "--out", str(target), "--force"]
-        failures += qhat(argv + (["--quiet"] if args.quiet else [])) != 0
+        failures += qhat(argv + (["--quiet"] if quiet else [])) != 0
     for path in jobs["check"]:
         target = out / safe_name(path.stem)
-        print(f"== qhat check {path} --out {target}", flush=True)
+        print(f"== qhat check {_shown(path)} --out {target}", flush=True)
         status = qhat(["check", str(path), "--out", str(target), "--force"])
         failures += status not in (0, 3)  # 3 = inconsistent claim, a finding, not a failure
     for path in jobs["batch"]:
         target = out / safe_name(path.stem)
-        print(f"== qhat batch {path} --out {target}", flush=True)
+        print(f"== qhat batch {_shown(path)} --out {target}", flush=True)
         argv = ["batch", str(path), "--out", str(target), "--force", "--prior", "empirical"]
-        failures += qhat(argv + (["--quiet"] if args.quiet else [])) != 0
+        failures += qhat(argv + (["--quiet"] if quiet else [])) != 0
     print(f"demo reports are in {out}/ (research estimates, not clinical results)")
     if failures:
         print(f"qhat: {failures} demo scenario(s) failed", file=sys.stderr)

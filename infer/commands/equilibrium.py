@@ -23,7 +23,8 @@ def add_arguments(parser) -> None:
     checks.accept_negative_numbers(parser)
     add = parser.add_argument
     add("--mu", required=True, metavar="M", help="mutation rate A->a per gamete per generation")
-    add("--s", required=True, metavar="S", help="selection coefficient against aa, in (0, 1]")
+    add("--s", required=True, metavar="S", help="selection coefficient against aa, in [0, 1] "
+        "(0 only with --Ne: the neutral stationary distribution)")
     add("--h", required=True, metavar="H", help="dominance coefficient, in [0, 1]")
     add("--F", metavar="F", help="inbreeding coefficient, in [0, 1) (default 0)")
     add("--nu", metavar="NU", help="back mutation rate a->A, in [0, 1) (default 0)")
@@ -53,10 +54,23 @@ def parse_options(args) -> dict:
     infer.errors.InputError
         For the first bad option, naming it and its value (``--s: 1.5 is above 1``).
     """
-    return checks.equilibrium_options(args)
+    options = checks.equilibrium_options(args)
+    if options["s"] == 0 and options["Ne"] is None:
+        raise checks.option_error(
+            "--s", f"{args.s} needs --Ne (and --nu > 0): without selection there is no "
+            "mutation-selection balance; with --Ne it is Wright's neutral distribution")
+    if options["inheritance"] == "x-linked":
+        from infer.core.x_linked import germ_line_rate_problem
+
+        problem = germ_line_rate_problem(options["mu"], options["alpha"])
+        if problem is not None:
+            raise checks.option_error("--mu", problem.replace("alpha =", "--alpha"))
+    return options
 
 
-def _regime(exists: bool, q: float | None, nu: float) -> str:
+def _regime(exists: bool, q: float | None, nu: float, s: float) -> str:
+    if s == 0:
+        return "no selection: neutral balance of forward and back mutation, mu/(mu + nu)"
     if not exists:
         return ("no stable interior equilibrium: mutation overwhelms selection and the "
                 "deleterious allele goes to fixation")
@@ -108,7 +122,7 @@ def compute(options: dict) -> dict:
                     "recessive": penetrance * float(hom),
                     "x-linked-male": float(balance.affected_fraction(
                         "x-linked-male", q_male, penetrance=penetrance))}
-    result["regime"] = _regime(exists, q if exists else None, nu)
+    result["regime"] = _regime(exists, q if exists else None, nu, s)
     result["approximations"] = {
         name: {"value": float(a.value), "relative_error": float(a.relative_error),
                "in_range": bool(a.in_range), "formula": a.formula, "range_note": a.range_note}

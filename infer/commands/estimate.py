@@ -47,11 +47,12 @@ def progress_printer(quiet: bool):
 
 def print_warnings(summary: dict, stream=None) -> None:
     """One ``qhat: warning: ...`` line on stderr for each warning of the estimate."""
+    from infer.core.text import shown
     from infer.jobs.estimate.warnings import estimate_warnings
 
     stream = stream or sys.stderr
     for warning in estimate_warnings(summary):
-        print(f"qhat: warning: {warning}", file=stream)
+        print(f"qhat: warning: {shown(warning)}", file=stream)
 
 
 def default_out(study_path: str) -> Path:

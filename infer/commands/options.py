@@ -37,14 +37,32 @@ __all__ = [
     "equilibrium_options",
     "simulate_options",
     "SIMULATE_MAX_VALUES",
+    "SIMULATE_MAX_NE",
+    "SIMULATE_MAX_WORK",
+    "SIMULATE_GENERATION_COST",
+    "simulate_work",
     "check_threshold",
     "batch_options",
     "BATCH_PRIORS",
+    "BATCH_MAX_GRID_POINTS",
+    "BATCH_MIN_MU_LEVEL",
     "seed",
 ]
 
 #: recorded frequencies ``qhat simulate`` keeps in memory (replicates x kept generations)
 SIMULATE_MAX_VALUES = 50_000_000
+#: largest ``qhat simulate --Ne`` (2Ne genes below 2**53, exact in float64)
+SIMULATE_MAX_NE = 1e15
+#: one generation costs about as much as this many more replicates (Python overhead per
+#: generation, about 40 us, over about 110 ns per replicate-generation; measured)
+SIMULATE_GENERATION_COST = 400
+#: the most work ``qhat simulate`` accepts, in replicate-generations: generations x
+#: (replicates + SIMULATE_GENERATION_COST); about 10 minutes at 110 ns each
+SIMULATE_MAX_WORK = 5_000_000_000
+#: largest ``qhat batch --grid-points`` (work per locus grows with its square)
+BATCH_MAX_GRID_POINTS = 5_000
+#: smallest ``qhat batch --mu-level`` (the log-normal spread of mu grows as 1 / z)
+BATCH_MIN_MU_LEVEL = 0.5
 #: the shared priors on s_het that ``qhat batch`` offers
 BATCH_PRIORS = ("log-uniform", "empirical")
 
@@ -81,6 +99,8 @@ class Range(NamedTuple):
         Whole numbers only (returned as int).
     note : str
         Said after a value above ``high`` (why the bound is there).
+    low_note : str
+        Said after a value below ``low`` (why the bound is there).
     """
 
     low: float | None = None
@@ -89,6 +109,7 @@ class Range(NamedTuple):
     high_open: bool = False
     whole: bool = False
     note: str = ""
+    low_note: str = ""
 
 
 def _typed(value: Any) -> str:
@@ -141,7 +162,8 @@ def number(value: Any, option: str, accepted: Range | None = None) -> float | in
         if parsed < 0 <= low:
             raise option_error(option, f"{shown} is negative")
         relation = "above" if accepted.low_open else "at least"
-        raise option_error(option, f"{shown} must be {relation} {low:g}")
+        note = f" {accepted.low_note}" if accepted.low_note else ""
+        raise option_error(option, f"{shown} must be {relation} {low:g}{note}")
     if high is not None and parsed > high:
         note = f" {accepted.note}" if accepted.note else ""
         raise option_error(option, f"{shown} is above {high:g}{note}")
@@ -190,7 +212,7 @@ def seed(value: Any, option: str = "--seed") -> int | None:
 #: option -> (accepted range, default)
 EQUILIBRIUM_NUMBERS: dict[str, tuple[Range, float | None]] = {
     "mu": (Range(0.0, 1.0, high_open=True), None),
-    "s": (Range(0.0, 1.0, low_open=True), None),
+    "s": (Range(0.0, 1.0), None),  # s = 0 only with --Ne (commands/equilibrium.py)
     "h": (Range(0.0, 1.0), None),
     "F": (Range(0.0, 1.0, high_open=True), 0.0),
     "nu": (Range(0.0, 1.0, high_open=True), 0.0),
@@ -239,7 +261,10 @@ def equilibrium_options(args) -> dict:
 # ------------------------------------------------------------------ qhat simulate
 
 SIMULATE_NUMBERS = {
-    "Ne": Range(0.0, None, low_open=True),
+    "Ne": Range(0.0, SIMULATE_MAX_NE, low_open=True,
+                note="(2Ne genes are drawn binomially each generation, and counts must stay "
+                     "exact in float64, below 2**53; drift is negligible long before: use "
+                     "qhat equilibrium)"),
     "mu": Range(0.0, 1.0),
     "s": Range(0.0, 1.0),
     "h": Range(0.0, 1.0),
@@ -276,7 +301,20 @@ def simulate_options(args) -> None:
         raise option_error("--replicates", f"{args.replicates} replicates x {kept} kept "
                            f"generations is more than {SIMULATE_MAX_VALUES} values; use "
                            "--thin or fewer replicates")
+    work = simulate_work(args.replicates, args.generations)
+    if work > SIMULATE_MAX_WORK:
+        raise option_error("--generations", f"{args.generations} generations of "
+                           f"{args.replicates} replicates are about {work:.2g} "
+                           "replicate-generations of work (each generation also costs "
+                           f"as much as {SIMULATE_GENERATION_COST} replicates), more than "
+                           f"the {SIMULATE_MAX_WORK:.0e} accepted (about 10 minutes); use "
+                           "fewer generations or replicates")
     args.plot = png_path(args.plot)
+
+
+def simulate_work(replicates: int, generations: int) -> int:
+    """Work of a simulation in replicate-generations, the per-generation cost included."""
+    return generations * (replicates + SIMULATE_GENERATION_COST)
 
 
 # ------------------------------------------------------------------ qhat check
@@ -294,9 +332,17 @@ BATCH_NUMBERS = {
     "s_low": Range(0.0, None, low_open=True),
     "s_high": Range(0.0, 0.5, low_open=True,
                     note="(aa fitness 1 - 2 s_het would be negative)"),
-    "grid_points": Range(low=20, whole=True),
+    "grid_points": Range(low=20, high=BATCH_MAX_GRID_POINTS, whole=True,
+                         note="(the work per locus grows with the square of the nodes, and "
+                              "5000 already space ln s_het by 0.0022 over the default "
+                              "range)"),
     "interval": Range(0.0, 1.0, low_open=True, high_open=True),
-    "mu_level": Range(0.0, 1.0, low_open=True, high_open=True),
+    "mu_level": Range(BATCH_MIN_MU_LEVEL, 1.0, high_open=True,
+                      low_note="(each interval is read as a log-normal spread "
+                               "ln(mu_upper/mu_lower) / (2 z), z the level's normal "
+                               "quantile, 0.67 at 0.5; as the level falls to 0, z falls "
+                               "to 0 and the spread, with the mu grid, grows without "
+                               "bound)"),
     "jobs": Range(low=1, whole=True),
     "chunk_size": Range(low=1, whole=True),
 }

@@ -39,6 +39,7 @@ def add_arguments(parser) -> None:
     add("--thin", default=1, metavar="N", help="keep every THIN-th generation (default 1)")
     add("--seed", default=None, metavar="N", help="seed of the random generator")
     add("--json", action="store_true", help="print one JSON object")
+    add("--quiet", action="store_true", help="no progress bar on stderr")
     add("--plot", metavar="FILE.png", default=None, help="draw trajectories and the histogram")
 
 
@@ -56,6 +57,7 @@ def run(args) -> int:
     from infer.errors import InputError
 
     seed = args.seed if args.seed is not None else int(np.random.SeedSequence().entropy % 2**63)
+    bar = _progress_bar(args)
     try:
         result = wright_fisher(
             args.Ne,
@@ -69,10 +71,14 @@ def run(args) -> int:
             burn_in=args.burn_in,
             thin=args.thin,
             probabilities=PROBABILITIES,
+            progress=None if bar is None else bar.advance,
         )
     except InputError as error:
         option = OPTION.get(error.field, f"--{error.field}")
         raise checks.option_error(option, error.message) from None
+    finally:
+        if bar is not None:
+            bar.close()
     wright = None
     if args.nu > 0 and args.mu > 0:
         summary = drift.stationary_summary(args.Ne, args.mu, args.s, args.h, args.nu)
@@ -112,6 +118,29 @@ def run(args) -> int:
     else:
         _print_text(document)
     return 0
+
+
+class _Bar:
+    """A tqdm bar over generations, fed ``advance(done, total)`` by the simulation."""
+
+    def __init__(self, total: int):
+        from tqdm import tqdm
+
+        self.bar = tqdm(total=total, unit="generation", desc="qhat simulate", file=sys.stderr,
+                        unit_scale=True)
+
+    def advance(self, done: int, total: int) -> None:
+        self.bar.update(done - self.bar.n)
+
+    def close(self) -> None:
+        self.bar.close()
+
+
+def _progress_bar(args):
+    """A progress bar on stderr when it is a terminal and --quiet is not given."""
+    if args.quiet or not sys.stderr.isatty():
+        return None
+    return _Bar(int(args.generations))
 
 
 def _print_text(doc):

@@ -20,6 +20,8 @@ from infer.errors import InputError
 __all__ = ["SimulationResult", "wright_fisher", "next_generation_expected"]
 
 DEFAULT_PROBABILITIES = (0.025, 0.25, 0.5, 0.75, 0.975)
+#: the most genes (2Ne) drawn per generation: counts stay exact in float64 (2**53)
+MAX_GENES = 2**53
 
 
 @dataclass(frozen=True)
@@ -87,6 +89,7 @@ def wright_fisher(
     thin=1,
     initial=None,
     probabilities=DEFAULT_PROBABILITIES,
+    progress=None,
 ):
     """Simulate ``replicates`` independent Wright–Fisher populations.
 
@@ -106,12 +109,14 @@ def wright_fisher(
         reached by iterating the expected map from q = 0 (at most 1e5 generations).
     probabilities : sequence of float
         Probabilities of the pooled quantiles reported.
+    progress : callable, optional
+        Called as ``progress(done, generations)`` about a thousand times during the run.
 
     Returns
     -------
     SimulationResult
     """
-    _check("Ne", Ne, 0, np.inf, low_open=True)
+    _check("Ne", Ne, 0, MAX_GENES / 2, low_open=True)
     _check("mu", mu, 0, 1)
     _check("s", s, 0, 1)
     _check("h", h, 0, 1)
@@ -134,11 +139,14 @@ def wright_fisher(
     kept = np.arange(burn_in, generations, thin)
     traj = np.empty((int(replicates), kept.size))
     column = 0
+    every = max(1, int(generations) // 1000)
     for generation in range(int(generations)):
         q = rng.binomial(genes, next_generation_expected(q, mu, s, h, nu)) / genes
         if column < kept.size and generation == kept[column]:
             traj[:, column] = q
             column += 1
+        if progress is not None and (generation + 1) % every == 0:
+            progress(generation + 1, int(generations))
     replicate_means = traj.mean(axis=1)
     se = (
         float(replicate_means.std(ddof=1) / np.sqrt(replicates)) if replicates > 1 else float("nan")

@@ -6,7 +6,8 @@ egg's X (fitnesses 1, 1-s). Mutation in each sex's germ line: mu_female and
 mu_male = alpha * mu_female, with the study's mu the average per X chromosome,
 (2 mu_female + mu_male) / 3; back mutation nu in both. See infer.core.balance for the
 stability argument (the map is cooperative, so the smallest sign-changing root is
-stable).
+stable). A (mu, alpha) pair that makes either germ-line rate 1 or more is outside the
+model: no equilibrium (NaN, ``exists`` False).
 """
 
 from __future__ import annotations
@@ -27,6 +28,7 @@ __all__ = [
     "x_linked_balance",
     "sex_specific_rates",
     "daughter_genotype_frequencies",
+    "germ_line_rate_problem",
 ]
 
 
@@ -74,12 +76,33 @@ def sex_specific_rates(mu, alpha=1.0):
     Returns
     -------
     tuple of numpy.ndarray
-        ``(mu_female, mu_male)`` = (3 mu / (2 + alpha), alpha * mu_female).
+        ``(mu_female, mu_male)`` = (3 mu / (2 + alpha), alpha * mu_female); both NaN
+        where either is 1 or more (a germ line cannot mutate more than every gamete,
+        so the life cycle is undefined there: e.g. alpha = 1000, mu = 0.5 would give
+        mu_male = 1.497).
     """
     mu = np.asarray(mu, dtype=float)
     alpha = np.asarray(alpha, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mu_female = 3.0 * mu / (2.0 + alpha)
+        mu_male = alpha * mu_female
+        inside = (mu_female < 1.0) & (mu_male < 1.0)
+    if np.all(inside):
+        return mu_female, mu_male
+    return np.where(inside, mu_female, np.nan), np.where(inside, mu_male, np.nan)
+
+
+def germ_line_rate_problem(mu: float, alpha: float) -> str | None:
+    """Why a fixed (mu, alpha) pair is outside the life cycle, or None when it is not.
+
+    Each germ line's rate (:func:`sex_specific_rates`) must be below 1, as mu is.
+    """
     mu_female = 3.0 * mu / (2.0 + alpha)
-    return mu_female, alpha * mu_female
+    for name, rate in (("mu_female", mu_female), ("mu_male", alpha * mu_female)):
+        if rate >= 1.0:
+            return (f"{mu:g} with alpha = {alpha:g} gives {name} = {rate:.4g} per gamete; "
+                    "each germ line's rate must be below 1")
+    return None
 
 
 def _x_linked_coefficients(s, h, F, mu_f, mu_m, nu):
@@ -175,6 +198,7 @@ def x_linked_balance(mu, s, h, F=0.0, nu=0.0, alpha=1.0) -> XLinkedBalance:
     flat = [np.broadcast_to(v, shape).ravel() for v in (mu, s, h, F, nu, alpha, valid)]
     mu, s, h, F, nu, alpha, valid = flat
     mu_f, mu_m = sex_specific_rates(mu, alpha)
+    valid = valid & np.isfinite(mu_f)  # a germ-line rate of 1 or more: no life cycle
     x = np.full(mu.size, np.nan)
     exists = np.zeros(mu.size, dtype=bool)
     zero = valid & (mu == 0) & ((s > 0) | (nu > 0))

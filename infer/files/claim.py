@@ -57,7 +57,7 @@ from typing import Any
 from infer.core.choices import AUTOSOMAL_MODES, X_LINKED_MODES
 from infer.errors import InputError
 from infer.files.reading import invalid_toml, read_text
-from infer.files.study import Study, parse_study
+from infer.files.study import Study, check_germ_line_rates, parse_study
 from infer.model.priors.parsing import (
     PARAMETERS,
     SUPPORT,
@@ -271,6 +271,8 @@ def _parse(document: Any, source: str) -> Claim:
     parameters = dict(study.parameters)
     for name in REQUIRED_PARAMETERS:
         parameters[name] = Fixed(name, values[name])
+    if study.inheritance == "x-linked":
+        check_germ_line_rates(parameters)
     study = replace(study, parameters=parameters,
                     defaulted=study.defaulted - set(REQUIRED_PARAMETERS),
                     observations=[] if arithmetic_only else study.observations)

@@ -4,9 +4,13 @@ Rank-normalised split R-hat and bulk / tail effective sample size. The estimator
 those of Vehtari, Gelman, Simpson, Carpenter & Bürkner (2021),
 "Rank-normalization, folding, and localization: an improved R-hat for assessing
 convergence of MCMC", Bayesian Analysis 16:667, with the autocorrelation sum truncated by
-Geyer's initial monotone sequence (Geyer 1992, Statistical Science 7:473). They are
-written here in numpy because importing arviz costs several seconds, which a command
-that only needs two numbers should not pay; tests check them against arviz.
+Geyer's initial positive and initial monotone sequences (Geyer 1992, Statistical Science
+7:473). They are written here in numpy because importing arviz costs several seconds,
+which a command that only needs a few numbers should not pay. The definitions follow
+arviz-stats 1.x step for step (the truncation keeps, as there, the even-lag term of the
+first non-positive pair once), so that the numbers in summary.json are arviz's own on the
+draws stored in posterior.nc; tests/inference/test_diagnostics.py checks equality to
+1e-10.
 """
 
 from __future__ import annotations
@@ -16,10 +20,22 @@ from scipy.special import ndtri
 
 __all__ = ["ess_bulk", "ess_tail", "ess_indicator", "r_hat"]
 
+#: fewest draws per chain for which a diagnostic is defined (as in arviz-stats)
+MIN_DRAWS = 4
+
+
+def _invalid(x: np.ndarray, min_chains: int) -> bool:
+    """True when the diagnostic is undefined: non-finite values, or too few draws or chains."""
+    return (x.shape[0] < min_chains or x.shape[1] < MIN_DRAWS
+            or not bool(np.all(np.isfinite(x))))
+
+
+def _as_chains(x) -> np.ndarray:
+    return np.atleast_2d(np.asarray(x, dtype=float))
+
 
 def _split(x: np.ndarray) -> np.ndarray:
     """Split each chain in half (dropping the middle draw of an odd length)."""
-    x = np.atleast_2d(np.asarray(x, dtype=float))
     half = x.shape[1] // 2
     return np.concatenate([x[:, :half], x[:, -half:]], axis=0)
 
@@ -52,42 +68,63 @@ def _autocovariance(x: np.ndarray) -> np.ndarray:
 
 
 def _ess(x: np.ndarray) -> float:
-    """Effective sample size of (chains, draws) by Geyer's initial monotone sequence."""
+    """Effective sample size of (chains, draws) by Geyer's initial monotone sequence.
+
+    With rho_t the combined-chain autocorrelation (Vehtari et al. 2021, eq. 10) and
+    P_k = rho_2k + rho_2k+1, the pairs are summed up to the first k with P_k <= 0
+    (initial positive sequence, at most up to lag n - 3), made non-increasing (initial
+    monotone sequence), and the even term rho_2k of the last pair examined is added once
+    when positive: tau = -1 + 2 sum_{j<k} P_j + rho_2k; ESS = chains n / tau, with tau
+    at least 1 / log10(chains n).
+    """
     chains, n = x.shape
-    if n < 4 or not np.all(np.isfinite(x)):
-        return float("nan")
+    if np.max(x) - np.min(x) < np.finfo(float).resolution:
+        return float(x.size)  # a constant sequence: every draw counts (as arviz-stats)
     acov = _autocovariance(x)
     chain_mean = x.mean(axis=1)
     mean_var = acov[:, 0].mean() * n / (n - 1.0)
     var_plus = mean_var * (n - 1.0) / n
     if chains > 1:
         var_plus += chain_mean.var(ddof=1)
-    if var_plus <= 0:
-        return float("nan")
     rho = 1.0 - (mean_var - acov.mean(axis=0)) / var_plus
     rho[0] = 1.0
-    pairs = rho[: 2 * (n // 2)].reshape(-1, 2).sum(axis=1)  # Gamma_t = rho_2t + rho_2t+1
-    positive = np.flatnonzero(pairs <= 0)
-    stop = positive[0] if positive.size else pairs.size
-    pairs = np.minimum.accumulate(pairs[:stop])  # initial monotone sequence
-    tau = -1.0 + 2.0 * pairs.sum()
+    # pairs P_0..P_K, P_k examined while 2k - 1 < n - 3
+    last_pair = max((n - 3) // 2, 0)
+    count = last_pair + 1
+    pairs = rho[0: 2 * count: 2] + rho[1: 2 * count: 2]
+    if pairs[0] <= 0:
+        stop = 0
+    else:
+        nonpositive = np.flatnonzero(pairs[1:] <= 0)
+        stop = int(nonpositive[0]) + 1 if nonpositive.size else last_pair
+    even = rho[2 * stop]
+    tail = even if (even > 0 or (stop >= 1 and pairs[stop] >= 0)) else 0.0
+    monotone = np.minimum.accumulate(pairs[:stop])
+    if np.isnan(rho[: 2 * stop + 2]).any():
+        return float("nan")
+    tau = -1.0 + 2.0 * monotone.sum() + tail
     tau = max(tau, 1.0 / np.log10(chains * n))
     return float(chains * n / tau)
 
 
 def ess_bulk(x) -> float:
     """Bulk effective sample size of a (chain, draw) array (rank-normalised, split)."""
+    x = _as_chains(x)
+    if _invalid(x, 1):
+        return float("nan")
     return _ess(_rank_normalise(_split(x)))
 
 
 def ess_tail(x, prob: tuple[float, float] = (0.05, 0.95)) -> float:
-    """Tail effective sample size: the smaller ESS of the two quantile indicators."""
-    split = _split(x)
-    values = []
-    for p in prob:
-        indicator = (split <= np.quantile(split, p)).astype(float)
-        values.append(_ess(indicator))
-    return float(min(values))
+    """Tail effective sample size: the smaller ESS of the two quantile indicators.
+
+    The quantiles are those of all draws (numpy's linear interpolation), the indicators
+    ``x <= quantile`` are then split (Vehtari et al. 2021, section 4.3).
+    """
+    x = _as_chains(x)
+    if _invalid(x, 1):
+        return float("nan")
+    return float(min(ess_indicator(x, float(np.quantile(x, p))) for p in prob))
 
 
 def ess_indicator(x, threshold: float) -> float:
@@ -96,18 +133,27 @@ def ess_indicator(x, threshold: float) -> float:
     The Monte Carlo sd of the empirical distribution function at ``threshold`` is
     ``sqrt(p (1 - p) / ess_indicator)`` (Vehtari et al. 2021, section 4.3).
     """
-    return _ess((_split(x) <= threshold).astype(float))
+    x = _as_chains(x)
+    if _invalid(x, 1):
+        return float("nan")
+    return _ess(_split((x <= threshold).astype(float)))
 
 
 def _rhat(x: np.ndarray) -> float:
     chains, n = x.shape
     within = x.var(axis=1, ddof=1).mean()
     between = n * x.mean(axis=1).var(ddof=1)
-    return float(np.sqrt(((n - 1.0) / n * within + between / n) / within))
+    return float(np.sqrt((between / within + n - 1.0) / n))
 
 
 def r_hat(x) -> float:
-    """Rank-normalised split R-hat: the larger of the bulk and the folded version."""
+    """Rank-normalised split R-hat: the larger of the bulk and the folded version.
+
+    NaN with fewer than two chains or four draws, or non-finite values (as arviz-stats).
+    """
+    x = _as_chains(x)
+    if _invalid(x, 2):
+        return float("nan")
     split = _split(x)
     bulk = _rhat(_rank_normalise(split))
     folded = _rhat(_rank_normalise(np.abs(split - np.median(split))))

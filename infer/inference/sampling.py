@@ -17,8 +17,8 @@ side. A run has three phases:
    parameter,
 
    - the bulk effective sample size over all ensembles is at least ``target_ess``,
-   - split R-hat across ensembles (each ensemble one chain, split in time) is below
-     ``max_r_hat``,
+   - split R-hat across ensembles (each ensemble one chain, its walkers laid end to end,
+     split in half) is below ``max_r_hat``,
    - the chain is longer than ``tau_multiple`` integrated autocorrelation times
      (Foreman-Mackey et al. 2013, PASP 125:306: "about 50 autocorrelation times"),
    - the autocorrelation time moved by at most ``tau_stability`` (relative) since the
@@ -26,9 +26,11 @@ side. A run has three phases:
    - no walker is stuck (a stuck walker restarts the phase, at most twice).
 
 Walkers of one ensemble are not independent chains (LIBRARIES.md: treating them as chains
-inflates R-hat), so R-hat compares ensembles, and the effective sample size is computed
-on each ensemble's walkers laid end to end (walker-major), where the lag structure of the
-sequence is that of a single walker. No move passes information between ensembles.
+inflates R-hat), so a chain is one ensemble: its walkers' kept draws laid end to end
+(walker-major), where the lag structure of the sequence is that of a single walker. The
+effective sample sizes and R-hat are computed on exactly these (ensemble, draw) arrays,
+the layout of ``SamplingRun.z`` and of posterior.nc, so arviz gives the same numbers from
+the file. No move passes information between ensembles.
 
 The first ``ceil(burn_in_taus * tau_max)`` steps of the sampling phase are discarded as
 well; the kept draws are thinned by ``max(1, floor(tau_min / 2))`` steps.
@@ -224,18 +226,24 @@ def _autocorr_times(emcee, chain: np.ndarray) -> np.ndarray:
     return np.where(np.isfinite(tau), tau, float(steps))
 
 
-def _diagnose(kept: np.ndarray):
-    """ESS (bulk, tail) and split R-hat per parameter for kept (chains, steps, walkers, ndim)."""
+def _diagnose(kept: np.ndarray, constrain=None):
+    """ESS (bulk, tail) and split R-hat per parameter for kept (chains, steps, walkers, ndim).
+
+    Computed on the (chain, walker-major draw) arrays of ``SamplingRun.z``, after
+    ``constrain`` when given (the folded R-hat is not invariant under a change of scale).
+    """
     chains, steps, walkers, ndim = kept.shape
     walker_major = kept.transpose(0, 2, 1, 3).reshape(chains, walkers * steps, ndim)
-    time_major = kept.reshape(chains, steps * walkers, ndim)
+    if constrain is not None:
+        walker_major = np.asarray(constrain(walker_major.reshape(-1, ndim)),
+                                  dtype=float).reshape(walker_major.shape)
     ess_bulk = np.empty(ndim)
     ess_tail = np.empty(ndim)
     r_hat = np.empty(ndim)
     for j in range(ndim):
         ess_bulk[j] = diagnostics.ess_bulk(walker_major[..., j])
         ess_tail[j] = diagnostics.ess_tail(walker_major[..., j])
-        r_hat[j] = diagnostics.r_hat(time_major[..., j])
+        r_hat[j] = diagnostics.r_hat(walker_major[..., j])
     return ess_bulk, ess_tail, r_hat
 
 
@@ -257,6 +265,7 @@ def run_to_convergence(
     rng: np.random.Generator,
     settings: SamplerSettings = SamplerSettings(),
     progress: Callable[[int, int], None] | None = None,
+    constrain: Callable[[np.ndarray], np.ndarray] | None = None,
 ) -> SamplingRun:
     """Sample a vectorised log density with emcee until the convergence criteria hold.
 
@@ -274,6 +283,10 @@ def run_to_convergence(
     settings : SamplerSettings
     progress : callable, optional
         Called as ``progress(steps_done, max_steps)`` after each block.
+    constrain : callable, optional
+        Maps unconstrained points (n, ndim) to the values reported (n, ndim), e.g. the
+        parameters on their own scale; ESS and R-hat are computed on these, so that they
+        equal arviz's on the stored parameter draws. Default: the unconstrained values.
 
     Returns
     -------
@@ -389,7 +402,7 @@ def run_to_convergence(
                 restarts += 1
                 restart = True
                 break
-            ess_bulk, ess_tail, r_hat = _diagnose(kept)
+            ess_bulk, ess_tail, r_hat = _diagnose(kept, constrain)
             long_enough = (main_steps - discard) > settings.tau_multiple * tau
             stable = (previous_tau is not None
                       and np.all(np.abs(tau - previous_tau) <= settings.tau_stability * tau))
@@ -418,7 +431,7 @@ def run_to_convergence(
         tau = np.max([_autocorr_times(emcee, c) for c in chains], axis=0)
         discard, thin = main_steps // 2, 1
         kept = chains[:, discard::thin]
-        ess_bulk, ess_tail, r_hat = _diagnose(kept)
+        ess_bulk, ess_tail, r_hat = _diagnose(kept, constrain)
         stuck = np.zeros((groups, walkers), dtype=bool)
     if not converged:
         if steps >= settings.max_steps:

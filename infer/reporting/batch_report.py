@@ -2,11 +2,13 @@
 
 :func:`loci_rows` gives the rows of loci.csv, :func:`batch_document` the object of
 summary.json, and :func:`write_batch_report` writes the report folder atomically (the
-figures of :mod:`infer.reporting.plots.batch_figures`).
+figures of :mod:`infer.reporting.plots.batch_figures`, report.md of
+:mod:`infer.reporting.batch_markdown` and its report.html).
 """
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import math
 from pathlib import Path
@@ -14,17 +16,19 @@ from pathlib import Path
 import numpy as np
 
 from infer.jobs.batch.summary import FLAGS, H_HALF_NOTE
-from infer.core.text import CAUTION_LINE
+from infer.core.text import CAUTION_LINE, spreadsheet_safe
+from infer.reporting.batch_markdown import batch_markdown
 from infer.reporting.folder import atomic_folder
+from infer.reporting.html import report_html
 from infer.reporting.jsonout import dumps
 from infer.reporting.plots.batch_figures import BATCH_FIGURE_FILES, batch_figures
 from infer.reporting.plots.save import save_figures
 
 __all__ = ["BATCH_FILES", "LOCI_COLUMNS", "loci_rows", "batch_assumptions", "batch_document",
-           "write_batch_report"]
+           "BatchFolder", "open_batch_report", "write_batch_report"]
 
 #: files of a batch report folder, as summary.json lists them
-BATCH_FILES = ("loci.csv", "summary.json", *BATCH_FIGURE_FILES)
+BATCH_FILES = ("loci.csv", "summary.json", "report.md", "report.html", *BATCH_FIGURE_FILES)
 #: header of loci.csv
 LOCI_COLUMNS = ("locus", "observed", "sampled", "mu", "mu_lower", "mu_upper", "s_het_median",
                 "s_het_lower", "s_het_upper", "s_het_mean", "expected", "flags")
@@ -52,17 +56,34 @@ def loci_rows(table, loci: dict, flags: dict = FLAGS):
     list of str
     """
     yield list(LOCI_COLUMNS)
+    yield from _rows(_read_columns(table), loci, flags)
+
+
+def _read_columns(table) -> dict:
+    """The columns of a LociTable that loci.csv repeats, by name."""
+    return {name: getattr(table, name)
+            for name in ("names", "observed", "sampled", "mu", "mu_lower", "mu_upper")}
+
+
+def _rows(loci_read, loci: dict, flags: dict = FLAGS, marks=None):
+    """The rows of loci.csv of one chunk (``loci_read`` has the LociTable's columns).
+
+    A locus name that a spreadsheet would run as a formula is neutralised
+    (:func:`infer.core.text.spreadsheet_safe`).
+    """
     bits = sorted(flags)
-    marks = {}
+    marks = {} if marks is None else marks
     columns = [np.asarray(c, dtype=float).tolist() for c in (
-        table.observed, table.sampled, table.mu, table.mu_lower, table.mu_upper, loci["median"],
-        loci["lower"], loci["upper"], loci["mean"], loci["expected"])]
-    for i, (name, code) in enumerate(zip(table.names, np.asarray(loci["flags"]).tolist(),
-                                              strict=True)):
+        loci_read["observed"], loci_read["sampled"], loci_read["mu"], loci_read["mu_lower"],
+        loci_read["mu_upper"], loci["median"], loci["lower"], loci["upper"], loci["mean"],
+        loci["expected"])]
+    for i, (name, code) in enumerate(zip(loci_read["names"], np.asarray(loci["flags"]).tolist(),
+                                         strict=True)):
         if code not in marks:
             marks[code] = ";".join(flags[b][0] for b in bits if code & b)
         k, n, mu, *rest = (column[i] for column in columns)
-        yield [name, f"{k:.0f}", f"{n:.0f}", f"{mu:.6g}", *map(_g, rest), marks[code]]
+        yield [spreadsheet_safe(name), f"{k:.0f}", f"{n:.0f}", f"{mu:.6g}", *map(_g, rest),
+               marks[code]]
 
 
 def _fitted(fitted) -> dict | None:
@@ -116,7 +137,7 @@ def batch_document(report) -> dict:
     return {
         "caution": CAUTION_LINE,
         "command": "qhat batch",
-        "input": {"file": table.source, "loci": len(table.names),
+        "input": {"file": table.source, "loci": report.loci,
                   "loci_with_mu_interval": report.loci_with_mu_interval,
                   "skipped_rows": table.skipped, "ignored_columns": table.ignored_columns},
         "model": {
@@ -151,12 +172,56 @@ def batch_document(report) -> dict:
     }
 
 
+class BatchFolder:
+    """A batch report folder being written: loci.csv row by row, then the rest.
+
+    Made by :func:`open_batch_report`; :meth:`add` appends one chunk's rows to loci.csv,
+    :meth:`finish` writes summary.json, report.md, report.html and the figures.
+    """
+
+    def __init__(self, folder: Path, handle):
+        self.folder = folder
+        self._writer = csv.writer(handle, lineterminator="\n")
+        self._writer.writerow(list(LOCI_COLUMNS))
+        self._marks = {}
+
+    def add(self, loci_read, loci: dict) -> None:
+        """Write the rows of one chunk (``names``, the input columns; ``posterior_summary``)."""
+        self._writer.writerows(_rows(loci_read, loci, marks=self._marks))
+
+    def finish(self, report) -> None:
+        """Write everything but loci.csv from the finished ``report`` (a ``BatchReport``)."""
+        folder = self.folder
+        figures = save_figures(lambda: batch_figures(report), folder, dpi=_DPI)
+        document = batch_document(report)
+        (folder / "summary.json").write_text(dumps(document), encoding="utf-8")
+        text = batch_markdown(document, tuple(figures))
+        (folder / "report.md").write_text(text, encoding="utf-8")
+        images = {name: (folder / name).read_bytes() for name in figures}
+        (folder / "report.html").write_text(report_html(text, images), encoding="utf-8")
+
+
+@contextlib.contextmanager
+def open_batch_report(out, *, force: bool = False):
+    """Open the report folder ``out`` (atomically, :func:`infer.reporting.folder.atomic_folder`).
+
+    Yields a :class:`BatchFolder` whose loci.csv takes rows chunk by chunk while the
+    loci are computed, so memory stays flat in the number of loci. The folder appears at
+    ``out`` only when the block completes (after :meth:`BatchFolder.finish`).
+    """
+    with atomic_folder(Path(out), force=force) as folder:
+        with open(folder / "loci.csv", "w", newline="", encoding="utf-8") as handle:
+            yield BatchFolder(folder, handle)
+
+
 def write_batch_report(report, out, *, force: bool = False) -> Path:
-    """Write loci.csv, summary.json and the three PNG figures into ``out`` atomically.
+    """Write loci.csv, summary.json, report.md, report.html and the figures atomically.
 
     Parameters
     ----------
     report : infer.jobs.batch.report.BatchReport
+        Of a run held in memory (``report.table`` a LociTable, ``report.result.loci``
+        the per-locus results).
     out : str or pathlib.Path
         The report folder; refused if it exists, unless ``force``.
     force : bool, optional
@@ -168,10 +233,7 @@ def write_batch_report(report, out, *, force: bool = False) -> Path:
         ``out``.
     """
     out = Path(out)
-    with atomic_folder(out, force=force) as folder:
-        with open(folder / "loci.csv", "w", newline="", encoding="utf-8") as handle:
-            csv.writer(handle, lineterminator="\n").writerows(
-                loci_rows(report.table, report.result.loci))
-        save_figures(lambda: batch_figures(report), folder, dpi=_DPI)
-        (folder / "summary.json").write_text(dumps(batch_document(report)), encoding="utf-8")
+    with open_batch_report(out, force=force) as written:
+        written.add(_read_columns(report.table), report.result.loci)
+        written.finish(report)
     return out

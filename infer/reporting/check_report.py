@@ -2,8 +2,8 @@
 
 :func:`text_report` is what ``qhat check`` prints, :func:`check_markdown` the text of
 report.md, :func:`check_document` the JSON object of ``--json`` and check.json, and
-:func:`write_check_report` writes the report folder (report.md, check.json and the
-balance plot of :mod:`infer.reporting.plots.claim_balance`) atomically.
+:func:`write_check_report` writes the report folder (report.md, report.html, check.json
+and the balance plot of :mod:`infer.reporting.plots.claim_balance`) atomically.
 """
 
 from __future__ import annotations
@@ -11,8 +11,9 @@ from __future__ import annotations
 import math
 from pathlib import Path
 
-from infer.core.text import CAUTION, caution_sentence, fmt
+from infer.core.text import CAUTION, caution_sentence, fmt, shown
 from infer.reporting.folder import atomic_folder
+from infer.reporting.html import report_html
 from infer.reporting.jsonout import dumps
 from infer.reporting.labels import fmt_count, fmt_value
 from infer.reporting.plots.claim_balance import claim_balance_figure
@@ -22,7 +23,7 @@ __all__ = ["CHECK_FILES", "text_report", "check_markdown", "check_document",
            "write_check_report"]
 
 #: files of a check report folder, in the order they are listed
-CHECK_FILES = ("report.md", "check.json", "balance.png")
+CHECK_FILES = ("report.md", "report.html", "check.json", "balance.png")
 _LABELS = {"error": "ERROR", "warning": "WARNING", "note": "note"}
 _DPI = 100
 
@@ -126,7 +127,7 @@ def text_report(result, out: Path | None = None) -> str:
     if out is not None:
         lines.append(f"report: {out}/report.md")
     lines.append(caution_sentence())
-    return "\n".join(lines)
+    return "\n".join(shown(line) for line in lines)   # user text escaped
 
 
 def _from_data_rows(result) -> list[str]:
@@ -206,11 +207,11 @@ def check_markdown(result, plot: str | None) -> str:
         lines += ["## Balance curve", "", f"![Balance curve]({plot})", ""]
     lines += ["## Files", "", "- `check.json`: every finding with the computation behind it.",
               "", CAUTION, ""]
-    return "\n".join(lines)
+    return "\n".join(shown(line) for line in lines)   # user text escaped
 
 
 def write_check_report(result, out: Path, *, force: bool = False) -> Path:
-    """Write report.md, check.json and balance.png into ``out`` atomically.
+    """Write report.md, report.html, check.json and balance.png into ``out`` atomically.
 
     Parameters
     ----------
@@ -226,9 +227,12 @@ def write_check_report(result, out: Path, *, force: bool = False) -> Path:
         ``out``.
     """
     out = Path(out)
-    plot = CHECK_FILES[2]
+    plot = CHECK_FILES[-1]
     with atomic_folder(out, force=force) as folder:
         (folder / "check.json").write_text(dumps(check_document(result)), encoding="utf-8")
         save_figures(lambda: {plot: claim_balance_figure(result)}, folder, dpi=_DPI)
-        (folder / "report.md").write_text(check_markdown(result, plot), encoding="utf-8")
+        text = check_markdown(result, plot)
+        (folder / "report.md").write_text(text, encoding="utf-8")
+        html = report_html(text, {plot: (folder / plot).read_bytes()})
+        (folder / "report.html").write_text(html, encoding="utf-8")
     return out

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from infer.core.text import CAUTION, CAUTION_LINE
+from infer.core.text import CAUTION, CAUTION_LINE, shown
 from infer.reporting.classic_estimates import direct_indirect_lines
 from infer.reporting.labels import (
     fmt_contraction,
@@ -225,7 +225,7 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
     lines += ["## Files", "", "- `summary.json`: every number above, machine-readable.",
               "- `posterior.nc`: arviz DataTree (posterior, prior, log_likelihood, "
               "posterior_predictive, observed_data).", "", CAUTION, ""]
-    return "\n".join(lines)
+    return "\n".join(shown(line) for line in lines)   # user text escaped
 
 
 def terminal_summary(result, out_path) -> str:
@@ -255,4 +255,4 @@ def terminal_summary(result, out_path) -> str:
     lines.append("  converged" if d["converged"] else "  NOT CONVERGED: " + " ".join(d["messages"]))
     lines.append(f"  report: {out_path}/report.md")
     lines.append(f"  {CAUTION_LINE}")
-    return "\n".join(lines)
+    return "\n".join(shown(line) for line in lines)   # user text escaped

@@ -6,6 +6,7 @@ import time
 from pathlib import Path
 
 from infer.reporting.folder import atomic_folder
+from infer.reporting.html import report_html
 from infer.reporting.jsonout import dumps
 from infer.reporting.markdown import report_markdown
 
@@ -14,7 +15,7 @@ __all__ = ["write_report"]
 
 def write_report(result, out: Path, force: bool = False, timing: dict | None = None,
                  plotter=None) -> Path:
-    """Write summary.json, report.md, posterior.nc and the plots into ``out`` atomically.
+    """Write summary.json, report.md, report.html, posterior.nc and the plots into ``out``.
 
     Parameters
     ----------
@@ -47,6 +48,8 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
             timing = dict(timing, plot_seconds=time.perf_counter() - started,
                           plots_drawn_by=drawn_by)
             (folder / "timing.json").write_text(dumps(timing), encoding="utf-8")
-        (folder / "report.md").write_text(report_markdown(result, plots, timing),
-                                          encoding="utf-8")
+        text = report_markdown(result, plots, timing)
+        (folder / "report.md").write_text(text, encoding="utf-8")
+        images = {name: (folder / name).read_bytes() for name in plots.values()}
+        (folder / "report.html").write_text(report_html(text, images), encoding="utf-8")
     return out

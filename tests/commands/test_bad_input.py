@@ -197,3 +197,156 @@ def test_bad_batch_file(tmp_path, capsys, case, content, needle):
                                        capsys)
     _assert_one_line(status, err, "loci.csv")
     assert needle.lower() in err.lower(), f"the error must mention {needle!r}: {err}"
+
+
+# Sizes and extreme numbers: each refused before anything is allocated or written, with
+# the limit and its reason in the line. (case id, text replaced, replacement, what the
+# line must contain: field, value, limit)
+BIG = 10**29  # above int64 (9.2e18) and above the count bound 1e15 (infer.validate.MAX_COUNT)
+
+SIZE_CASES = [
+    ("47 GiB of walkers", 'mode = "dominant"\n"""',
+     'mode = "dominant"\n[sampler]\nwalkers = 100000\nensembles = 64\n"""',
+     ("sampler.walkers", "100000", "635 GB", "the 25 GB of this machine")),
+    ("126 GB of walkers", 'mode = "dominant"\n"""',
+     'mode = "dominant"\n[sampler]\nseed = 1\nensembles = 64\nwalkers = 20000\n"""',
+     ("sampler.walkers", "20000", "ensembles = 64", "127 GB", "the 25 GB")),
+    ("log-normal sigma 1e-15", '{ prior = "log-uniform", low = 1e-8, high = 1e-3 }',
+     '{ prior = "log-normal", median = 1e-5, sigma = 1e-15 }',
+     ("parameters.mu.sigma", "1e-15", "too narrow", "1e-10")),
+    ("normal sd 1e-300", '{ prior = "uniform", low = 0.0, high = 1.0 }',
+     '{ prior = "normal", mean = 0.5, sd = 1e-300 }',
+     ("parameters.s.sd", "1e-300", "too narrow")),
+    ("total above int64", "total = 182400", f"total = {BIG}",
+     ("observations[1].total", str(BIG), "1e+15")),
+    ("births above int64", "births = 182400", f"births = {BIG}",
+     ("observations[2].births", str(BIG), "1e+15")),
+    ("reference people above int64", "reference_people = 310", f"reference_people = {BIG}",
+     ("observations[3].reference_people", str(BIG), "1e+15")),
+    ("count just above the bound", "total = 182400", f"total = {10**15 + 1}",
+     ("observations[1].total", str(10**15 + 1), "1e+15")),
+]
+
+
+@pytest.mark.parametrize("case,old,new,needles", SIZE_CASES, ids=[c[0] for c in SIZE_CASES])
+def test_sizes_in_a_study(tmp_path, capsys, monkeypatch, case, old, new, needles):
+    # the machine's memory, fixed at 25 GB so the line does not depend on the test machine
+    monkeypatch.setattr("infer.files.study.machine_memory", lambda: 25 * 10**9)
+    text = STUDY + '"""'
+    assert old in text, f"test case {case!r} out of date: {old!r} is not in STUDY"
+    path = tmp_path / "study.toml"
+    path.write_text(text.replace(old, new, 1).removesuffix('"""'), encoding="utf-8")
+    status, err = _run_writing_nothing(tmp_path, ["estimate", path, "--out", tmp_path / "out"],
+                                       capsys)
+    _assert_one_line(status, err, "study.toml", *needles)
+
+
+def test_memory_estimate_is_compared_with_the_stated_limit():
+    """The sampler's memory estimate (infer.files.study.sampler_memory) against a limit
+    given in bytes: the default settings fit in 1 GB, 100000 x 64 walkers do not; derived:
+    6,400,000 walkers x (2 free + 1 + 3 observations) columns x 1000 steps x 8 bytes."""
+    from infer.errors import InputError
+    from infer.files.study import check_sampler_memory, sampler_memory
+
+    check_sampler_memory({"walkers": 48, "ensembles": 4}, 2, 3, "deterministic",
+                         memory=10**9)
+    need, _ = sampler_memory({"walkers": 100_000, "ensembles": 64}, 2, 3, "deterministic")
+    assert need >= 6_400_000 * 6 * 1000 * 8, f"the estimate {need} must count the chains"
+    with pytest.raises(InputError) as caught:
+        check_sampler_memory({"ensembles": 64, "walkers": 100_000}, 2, 3, "drift",
+                             memory=10**12)
+    assert caught.value.field == "sampler.walkers", caught.value
+    assert "1e+03 GB" in str(caught.value) or "1000 GB" in str(caught.value), caught.value
+
+
+def test_step_cap_of_one_runs_and_says_not_converged(tmp_path, capsys):
+    """``[sampler] max_steps = 1`` is allowed: the run ends at the cap and says so (exit 4,
+    docs/command-line.md 'Exit status'), with no traceback."""
+    path = tmp_path / "study.toml"
+    path.write_text(STUDY + "\n[sampler]\nseed = 3\nmax_steps = 1\n", encoding="utf-8")
+    status, out, err = call_qhat(["estimate", path, "--out", tmp_path / "out", "--quiet"],
+                                 capsys)
+    assert "Traceback" not in err, f"max_steps = 1 must not crash:\n{err}"
+    assert status == 4, f"a run stopped at its step cap exits 4; got {status}: {err}"
+    assert "step cap of 1" in out + err, f"the run must say it stopped at the cap: {out}{err}"
+    assert (tmp_path / "out" / "summary.json").is_file(), "the report is still written"
+
+
+@pytest.mark.parametrize("options,needles", [
+    (["--grid-points", "10000000"], ("--grid-points", "10000000", "above 5000", "square")),
+    (["--grid-points", "100000"], ("--grid-points", "100000", "above 5000")),
+    (["--mu-level", "1e-12"], ("--mu-level", "1e-12", "at least 0.5", "spread")),
+], ids=lambda v: " ".join(v) if isinstance(v, list) else "")
+def test_batch_sizes(tmp_path, capsys, options, needles):
+    path = tmp_path / "loci.csv"
+    path.write_text(BATCH_HEADER + BATCH_GOOD, encoding="utf-8")
+    status, err = _run_writing_nothing(
+        tmp_path, ["batch", path, "--out", tmp_path / "out", *options], capsys)
+    _assert_one_line(status, err, *needles)
+
+
+SIMULATE = ["simulate", "--mu", "1e-5", "--s", "0.5", "--h", "0.5", "--nu", "1e-8"]
+
+
+@pytest.mark.parametrize("options,needles", [
+    (["--Ne", "1e19"], ("--Ne", "1e19", "above 1e+15", "2**53")),
+    (["--Ne", "100", "--generations", "1e9", "--thin", "1e6"],
+     ("--generations", "1000000000", "replicate-generations", "5e+09")),
+    (["--Ne", "100", "--generations", "1e7", "--replicates", "1000", "--thin", "1000"],
+     ("--generations", "10000000", "1000 replicates", "1.4e+10")),
+], ids=lambda v: " ".join(v) if isinstance(v, list) else "")
+def test_simulate_sizes(tmp_path, capsys, options, needles):
+    status, err = _run_writing_nothing(
+        tmp_path, [*SIMULATE, *options, "--plot", tmp_path / "sim.png"], capsys)
+    _assert_one_line(status, err, *needles)
+
+
+CLAIM_SIZE_CASES = [
+    ("total above int64", "total = 121_500", f"total = {BIG}",
+     ("observations[1].total", str(BIG), "1e+15")),
+    ("affected children above int64", "affected_children = 13",
+     f"affected_children = {BIG}", ("observations[2].affected_children", str(BIG))),
+]
+
+
+@pytest.mark.parametrize("case,old,new,needles", CLAIM_SIZE_CASES,
+                         ids=[c[0] for c in CLAIM_SIZE_CASES])
+def test_sizes_in_a_claim(tmp_path, capsys, case, old, new, needles):
+    assert old in CLAIM, f"test case {case!r} out of date: {old!r} is not in the demo claim"
+    path = tmp_path / "claim.toml"
+    path.write_text(CLAIM.replace(old, new, 1), encoding="utf-8")
+    status, err = _run_writing_nothing(tmp_path, ["check", path, "--out", tmp_path / "out"],
+                                       capsys)
+    _assert_one_line(status, err, "claim.toml", *needles)
+
+
+def test_drift_claim_with_a_huge_Ne_is_answered(tmp_path, capsys):
+    """A drift claim with Ne = 1e300 is checked, not crashed on: Wright's density then
+    sits on the deterministic balance (Wright 1931, Evolution in Mendelian populations:
+    its variance falls as 1/Ne), so the implied allele copies among 412 genotyped animals
+    are 2 x 412 x q_hat, with q_hat the exact deterministic equilibrium."""
+    import json
+
+    text = (DEMO / "claim-kestrel-captive.toml").read_text(encoding="utf-8")
+    for old, new in (('model = "deterministic"', 'model = "drift"'),
+                     ("Ne = 60 ", "Ne = 1e300 ")):
+        assert old in text, f"the demo claim changed: {old!r} is not in it"
+        text = text.replace(old, new, 1)
+    path = tmp_path / "claim.toml"
+    path.write_text(text, encoding="utf-8")
+    status, out, err = call_qhat(["check", path, "--json"], capsys)
+    assert "Traceback" not in err, f"Ne = 1e300 must not crash qhat check:\n{err}"
+    assert status in (0, 3), f"a checked claim exits 0 or 3; got {status}: {err}"
+    implied = json.loads(out)["implied"]
+    # q_hat is a fixed point of the life cycle (docs/model.md, 'Life cycle'), written out
+    # here: selection on zygotes, then mutation in gametes (nu = 1e-9, the drift default)
+    q, mu, s, h, nu = implied["q_hat"], 2e-5, 0.3, 0.2, 1e-9
+    p = 1 - q
+    selected = (p * q * (1 - h * s) + q * q * (1 - s)) / (
+        p * p + 2 * p * q * (1 - h * s) + q * q * (1 - s))
+    next_q = selected * (1 - nu) + (1 - selected) * mu
+    assert next_q == pytest.approx(q, rel=1e-6), f"q_hat {q} is not the balance ({next_q})"
+    copies = implied["observations"][0]["implied"]
+    assert copies == pytest.approx(2 * 412 * implied["q_hat"], rel=1e-3), (
+        f"implied copies {copies} vs 2 n q_hat = {2 * 412 * implied['q_hat']} "
+        "(the large-Ne limit of Wright's density)")

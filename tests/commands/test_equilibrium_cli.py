@@ -222,13 +222,64 @@ def test_stationary_with_drift():
         f"P(absent in 500) {result['probability_absent']} vs Kummer closed form {absent}")
 
 
+def test_neutral_stationary_is_beta():
+    """--s 0 with --Ne: Wright's neutral density Beta(4Ne·mu, 4Ne·nu) (Wright 1931;
+    scipy.stats.beta): mean, sd, median and the central 90 % interval, and P(no copy in n)
+    = B(a, b + n)/B(a, b) (beta-binomial at 0, scipy.stats.betabinom)."""
+    from scipy import stats
+
+    done = equilibrium("--mu", "2e-4", "--s", "0", "--h", "0.5", "--nu", "5e-5", "--Ne",
+                       "2000", "--sample", "100", "--interval", "0.9", "--json")
+    assert done.returncode == 0, f"s = 0 with --Ne must be accepted (the neutral density); {done}"
+    result = json.loads(done.stdout)
+    a, b = 4 * 2000 * 2e-4, 4 * 2000 * 5e-5
+    beta = stats.beta(a, b)
+    expected = {"mean": beta.mean(), "sd": beta.std(), "median": beta.median(),
+                "lower": beta.ppf(0.05), "upper": beta.ppf(0.95)}
+    for key, value in expected.items():
+        assert result["stationary"][key] == pytest.approx(value, rel=1e-7), (
+            f"s = 0: stationary {key} {result['stationary'][key]} vs scipy.stats.beta {value}")
+    absent = stats.betabinom.pmf(0, 100, a, b)
+    assert result["probability_absent"] == pytest.approx(absent, rel=1e-7), (
+        f"P(absent in 100) {result['probability_absent']} vs scipy betabinom {absent}")
+    assert result["regime"].startswith("no selection"), f"regime line: {result['regime']!r}"
+    assert result["q_hat"] == pytest.approx(2e-4 / (2e-4 + 5e-5), rel=1e-12), (
+        f"s = 0: the deterministic point is mu/(mu + nu) (closed form); got {result['q_hat']}")
+
+
+@pytest.mark.parametrize("Ne", ["1e12", "1e300"])
+def test_stationary_at_huge_ne_is_the_deterministic_limit(Ne):
+    """Huge Ne (the general quadrature alone printed mean 1 at 1e300, sd 0.0 at 1e12): the
+    density concentrates on the balance with the linear-noise sd sqrt(V/(2|M'|)),
+    V = x(1-x)/(2Ne), M' = -mu - nu - s/2 at h = 1/2 (derived; Kimura 1964; Ewens 2004,
+    §4.5): 6.32e-9 at Ne = 1e12; the mean is within O(mu) of the exact q_hat printed
+    beside it (the diffusion drops the 1 + mu factor of the recursion, docs/model.md)."""
+    done = equilibrium("--mu", "1e-5", "--s", "0.5", "--h", "0.5", "--nu", "1e-9", "--Ne", Ne,
+                       "--json")
+    assert done.returncode == 0, f"--Ne {Ne} must run; {done}"
+    result = json.loads(done.stdout)
+    st = result["stationary"]
+    assert st["mean"] == pytest.approx(result["q_hat"], rel=3e-5), (
+        f"Ne = {Ne}: stationary mean {st['mean']} vs the deterministic q_hat {result['q_hat']}")
+    x = st["mean"]
+    slope = 1e-5 + 1e-9 + 0.5 * (1 - 2 * x) / 2  # |M'(x)|, s = 0.5
+    sd = math.sqrt(x * (1 - x) / (2 * float(Ne)) / (2 * slope))
+    assert st["sd"] == pytest.approx(sd, rel=1e-6), (
+        f"Ne = {Ne}: sd {st['sd']} vs the linear-noise sd {sd}")
+    assert st["lower"] <= st["median"] <= st["upper"], f"quantiles out of order: {st}"
+
+
 BAD = [
     (["--mu", "-1e-5", "--s", "0.1", "--h", "0.5"], "--mu: -1e-5 is negative"),
     (["--mu=-2e-5", "--s", "0.1", "--h", "0.5"], "--mu: -2e-5 is negative"),
     (["--mu", "abc", "--s", "0.1", "--h", "0.5"], "--mu: 'abc' is not a number"),
     (["--mu", "nan", "--s", "0.1", "--h", "0.5"], "--mu"),
     (["--mu", "1e-5", "--s", "1.5", "--h", "0.5"], "--s: 1.5 is above 1"),
-    (["--mu", "1e-5", "--s", "0", "--h", "0.5"], "--s: 0"),
+    (["--mu", "1e-5", "--s", "0", "--h", "0.5"], "--s: 0 needs --Ne"),
+    (["--mu", "0.5", "--s", "0.5", "--h", "0.5", "--inheritance", "x-linked", "--alpha", "1000"],
+     "--mu: 0.5 with --alpha 1000 gives mu_male = 1.497 per gamete"),
+    (["--mu", "0.9", "--s", "0.5", "--h", "0.5", "--inheritance", "x-linked", "--alpha", "0.01"],
+     "--mu: 0.9 with --alpha 0.01 gives mu_female = 1.343 per gamete"),
     (["--mu", "1e-5", "--s", "-0.1", "--h", "0.5"], "--s: -0.1 is negative"),
     (["--mu", "1e-5", "--s", "0.1", "--h", "1.2"], "--h: 1.2 is above 1"),
     (["--mu", "1e-5", "--s", "0.1", "--h", "-0.2"], "--h: -0.2"),

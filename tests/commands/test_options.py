@@ -29,7 +29,8 @@ CASES = {
         (["--mu", "abc"], "--mu: 'abc' is not a number"),
         (["--mu", "-1e-5"], "--mu: -1e-5 is negative"),
         (["--s", "1.5"], "--s: 1.5 is above 1"),
-        (["--s", "0"], "--s: 0 must be above 0"),
+        (["--s", "0"], "--s: 0 needs --Ne (and --nu > 0): without selection there is no "
+         "mutation-selection balance; with --Ne it is Wright's neutral distribution"),
         (["--h", "nan"], "--h: nan is not a finite number"),
         (["--F", "1"], "--F: 1 must be below 1"),
         (["--penetrance", "inf"], "--penetrance: inf is not a finite number"),

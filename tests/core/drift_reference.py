@@ -14,6 +14,8 @@ pieces chosen here. Derived decomposition:
 
 from __future__ import annotations
 
+import math
+
 import mpmath as mp
 
 DIGITS = 20
@@ -101,3 +103,88 @@ def mean(Ne, mu, s, h, nu):
         Ne_, mu_, s_, nu_ = (mp.mpf(v) for v in (Ne, mu, s, nu))
         a, b, c = 4 * Ne_ * mu_, 4 * Ne_ * nu_, 2 * Ne_ * s_
         return mp.e ** (log_z(a + 1, b, c, h) - log_z(a, b, c, h))
+
+
+def _mode(A, B, c, h):
+    """Mode of x^(A-1)(1-x)^(B-1)e^(-cS): the root in (0, 1) of x(1-x)·d/dx log, by
+    bisection at the working precision (A, B > 1: the polynomial is > 0 at 0, < 0 at 1)."""
+    def p(x):
+        return (A - 1) * (1 - x) - (B - 1) * x - 2 * c * x * (1 - x) * (h + (1 - 2 * h) * x)
+
+    lo, hi = mp.mpf(0), mp.mpf(1)
+    for _ in range(mp.mp.prec + 20):
+        mid = (lo + hi) / 2
+        lo, hi = (mid, hi) if p(mid) > 0 else (lo, mid)
+    return (lo + hi) / 2
+
+
+def concentrated_moments(Ne, mu, s, h, nu, k=0, n=0):
+    """Mean, sd and log P(k of n) of Wright's density by mpmath.quad on the raw integrand.
+
+    For large Ne (a, b > 1, one interior peak). The working precision grows with log10 Ne
+    (F(x) ~ Ne is resolved to 30 digits); the integrand is exp(F(x) - F(mode)) on [0, 1],
+    split at the mode ± m·sd for m up to 60 (the sd from the curvature at the mode) and
+    the same around the mode of the sample-weighted integrand.
+    """
+    digits = 40 + int(mp.log10(mp.mpf(Ne)))
+    with mp.workdps(digits):
+        Ne, mu, s, nu, h = (mp.mpf(v) for v in (Ne, mu, s, nu, h))
+        a, b, c = 4 * Ne * mu, 4 * Ne * nu, 2 * Ne * s
+
+        def log_f(x, A, B):
+            return (A - 1) * mp.log(x) + (B - 1) * mp.log(1 - x) - c * _S(x, h)
+
+        def pieces(A, B):
+            mode = _mode(A, B, c, h)
+            curv = (A - 1) / mode**2 + (B - 1) / (1 - mode) ** 2 + 2 * c * (1 - 2 * h)
+            return mode, 1 / mp.sqrt(curv)
+
+        m0, s0 = pieces(a, b)
+        m1, s1 = pieces(a + k, b + (n - k))
+        pts = {mp.mpf(0), mp.mpf(1)}
+        for centre, sd in ((m0, s0), (m1, s1)):
+            for m in (0, 0.5, 1, 2, 3, 4, 6, 8, 12, 16, 24, 32, 45, 60):
+                for sign in (-1, 1):
+                    p = centre + sign * m * sd
+                    if 0 < p < 1:
+                        pts.add(p)
+        pts = sorted(pts)
+        top = log_f(m0, a, b)
+
+        def integral(g, A=a, B=b):
+            return mp.quad(lambda x: g(x) * mp.e ** (log_f(x, A, B) - top), pts)
+
+        total = integral(lambda x: 1)
+        mean = integral(lambda x: x) / total
+        var = integral(lambda x: (x - mean) ** 2) / total
+        log_p = (mp.log(mp.binomial(n, k)) + mp.log(integral(lambda x: 1, a + k, b + (n - k)))
+                 - mp.log(total))
+        return mean, mp.sqrt(var), log_p
+
+
+def diffusion_balance(Ne, mu, s, h, nu):
+    """Mode of Wright's density: the root of 4Ne·M(x) = 1 - 2x with M(x) = mu(1-x) - nu·x -
+    s·x(1-x)(h + (1-2h)x) the diffusion's mean change (derived: x(1-x)·d/dx log φ), by
+    scipy.optimize.brentq on M(x)/mu - (1-2x)/(4Ne·mu) (scaled so the tolerance is relative)."""
+    from scipy.optimize import brentq
+
+    def g(x):
+        m = mu * (1 - x) - nu * x - s * x * (1 - x) * (h + (1 - 2 * h) * x)
+        return m / mu - (1 - 2 * x) / (4 * Ne * mu)
+
+    return brentq(g, 1e-300, 0.5, xtol=1e-300, rtol=1e-15, maxiter=500)
+
+
+def linear_noise_sd(Ne, mu, s, h, nu):
+    """sd of the Gaussian (linear-noise / Ornstein–Uhlenbeck) limit: linearise M around its
+    root x̂, dx = M'(x̂)(x - x̂)dt + √V(x̂) dW, stationary variance V(x̂)/(2|M'(x̂)|) with
+    V(x) = x(1-x)/(2Ne) (Kimura 1964, J. Appl. Prob. 1:177; Ewens 2004, Mathematical
+    Population Genetics, §4.5). M' = -mu - nu - s[(1-2x)(h + (1-2h)x) + x(1-x)(1-2h)]."""
+    from scipy.optimize import brentq
+
+    def m(x):
+        return mu * (1 - x) - nu * x - s * x * (1 - x) * (h + (1 - 2 * h) * x)
+
+    x = brentq(lambda x: m(x) / mu, 1e-300, 0.5, xtol=1e-300, rtol=1e-15, maxiter=500)
+    slope = -mu - nu - s * ((1 - 2 * x) * (h + (1 - 2 * h) * x) + x * (1 - x) * (1 - 2 * h))
+    return math.sqrt(x * (1 - x) / (2 * Ne) / (2 * abs(slope)))

@@ -411,3 +411,190 @@ def test_impossible_counts_raise_input_error():
         drift.probability_absent(-3, 100, 1e-5, 0.1, 0.5, 1e-7)
     with pytest.raises(InputError):
         drift.stationary_summary(100, 1e-5, 0.1, 0.5, 1e-7, interval=1.2)
+
+
+# ------------------------------------------------------------------ large Ne: concentrated limit
+# A strongly selected locus: mu = 1e-5, s = 0.5, h = 1/2, nu = 1e-9.
+BIG = dict(mu=1e-5, s=0.5, h=0.5, nu=1e-9)
+
+
+@pytest.mark.parametrize("Ne", [1e12, 1e15, 1e30, 1e100, 1e300])
+def test_large_ne_concentrates_on_the_deterministic_balance(Ne):
+    """As Ne grows the density concentrates on the balance (Wright 1931; Ewens 2004, §4.5):
+    the mean is the mode of φ to O(1/(4Ne·mu)) relative (derived: Laplace's method, the
+    mean - mode gap is O(σ²/x̂)), that mode is within O(mu) relative of the exact discrete
+    balance of infer.core.balance.q_hat (derived: the two equilibrium equations differ by
+    the factor 1 + mu on hs, docs/model.md), and the sd is the linear-noise sd (6.3e-9 at
+    Ne = 1e12; the general quadrature alone gave sd 0.0 there and mean 1 at Ne = 1e300)."""
+    from infer.core.balance import q_hat
+
+    got = drift.stationary_summary(Ne, **BIG)
+    mode = reference.diffusion_balance(Ne, **BIG)
+    a = 4 * Ne * BIG["mu"]
+    assert abs(got["mean"] / mode - 1) <= 10 / a + 1e-14, (
+        f"Ne = {Ne:g}: mean {float(got['mean'])!r} vs the diffusion balance {mode!r} (brentq)")
+    exact = float(q_hat(BIG["mu"], BIG["s"], BIG["h"], nu=BIG["nu"]))
+    assert abs(got["mean"] / exact - 1) <= 3 * BIG["mu"], (
+        f"Ne = {Ne:g}: mean {float(got['mean'])!r} must be within O(mu) of q_hat {exact!r}")
+    sd = reference.linear_noise_sd(Ne, **BIG)
+    assert abs(got["sd"] / sd - 1) <= 10 / math.sqrt(a) / math.sqrt(a) + 1e-12, (
+        f"Ne = {Ne:g}: sd {float(got['sd'])!r} vs the linear-noise sd {sd!r}")
+    for key in ("lower", "median", "upper"):
+        assert abs(got[key] / mode - 1) <= 3 * float(got["sd"] / mode) + 1e-14, (
+            f"Ne = {Ne:g}: {key} {float(got[key])!r} must lie within 3 sd of {mode!r}")
+
+
+def test_large_ne_quantiles_are_gaussian():
+    """Ne = 1e15 (4Ne·mu = 4e10): median and 95 % bounds are x̂ + σ·z_p, z_p the normal
+    quantile (scipy.stats.norm), to O(1/√(4Ne·mu)) relative in the offset (the skewness
+    correction of the Cornish–Fisher expansion, common practice)."""
+    Ne = 1e15
+    got = drift.stationary_summary(Ne, **BIG, interval=0.95)
+    mode, sd = reference.diffusion_balance(Ne, **BIG), reference.linear_noise_sd(Ne, **BIG)
+    tolerance = 5 / math.sqrt(4 * Ne * BIG["mu"])
+    for key, p in (("lower", 0.025), ("upper", 0.975)):
+        offset = (got[key] - got["median"]) / (sd * stats.norm.ppf(p))
+        assert abs(offset - 1) <= tolerance, (
+            f"{key}: offset from the median is {offset:.6f} normal quantiles; expected 1")
+    assert abs(got["median"] - mode) <= 1e-3 * sd + 2e-16 * mode, (
+        f"median {float(got['median'])!r} vs the mode {mode!r} (sd {sd:.3g})")
+
+
+@pytest.mark.parametrize("Ne", [1e30, 1e300])
+def test_large_ne_sample_probability_is_binomial_at_the_balance(Ne):
+    """When the peak is far narrower than a sample can resolve, P(k of n) is the binomial at the
+    balance: scipy.stats.binom.logpmf(k, n, x̂) (derived; corrections O(n²/(4Ne·mu)))."""
+    mode = reference.diffusion_balance(Ne, **BIG)
+    k = np.array([0, 1, 3, 40, 1000])
+    got = drift.log_binomial_probability(k, 1000, Ne, **BIG)
+    np.testing.assert_allclose(got, stats.binom.logpmf(k, 1000, mode), rtol=1e-10, atol=1e-10,
+                               err_msg=f"Ne = {Ne:g}: log P(k of 1000) vs the binomial at x̂")
+    assert np.exp(got).sum() < 1.0 + 1e-12, "probabilities must not sum above 1"
+
+
+def test_large_ne_neutral_is_beta():
+    """s = 0, Ne = 1e9 and 1e12: Beta(4Ne·mu, 4Ne·nu) with parameters up to 4e7 (Wright 1931;
+    scipy.stats.beta): the general quadrature's sd loses ~3e-7 relative here, so the centred
+    rule must take these rows."""
+    for Ne, mu, nu in [(1e9, 1e-5, 1e-6), (1e12, 1e-5, 1e-9), (1e8, 0.3, 0.1)]:
+        beta = stats.beta(4 * Ne * mu, 4 * Ne * nu)
+        got = drift.stationary_summary(Ne, mu, 0.0, 0.5, nu)
+        case = f"Ne = {Ne:g}, mu = {mu:g}, nu = {nu:g}"
+        for key, expected in (("mean", beta.mean()), ("sd", beta.std()),
+                              ("median", beta.median()), ("lower", beta.ppf(0.025)),
+                              ("upper", beta.ppf(0.975))):
+            np.testing.assert_allclose(got[key], expected, rtol=1e-10,
+                                       err_msg=f"{case}: {key} vs scipy.stats.beta")
+
+
+SWITCH = [  # rows just below and above LIMIT = max(4Ne·mu, 4Ne·nu, 2Ne·|s|) = 1e4
+    (1e4, 0.05, 0.5, 0.5, 1e-4),
+    (1e4, 0.05, 0.5, 0.0, 1e-4),
+    (1e4, 0.03, 0.5, 0.8, 1e-4),
+    (2.5e4, 0.1, 0.0, 0.5, 0.05),
+]
+
+
+@pytest.mark.parametrize("Ne, mu, s, h, nu", SWITCH)
+def test_switch_to_the_centred_rule_is_continuous(Ne, mu, s, h, nu):
+    """Across the switch (docs/model.md: the centred rule from max(4Ne·mu, 4Ne·nu, 2Ne·|s|) =
+    1e4 when the peak is narrow) the two rules agree: evaluated on the same row, mean, sd,
+    quantiles, log Z and log P(k of n) differ by < 1e-7 relative, and the public functions
+    are continuous through the switch to that tolerance (derived: the general rule's sd,
+    from E[x²]/E[x] - E[x], keeps about eps·|log Z|/(var/mean²) ≈ 2e-8 relative for
+    Beta(1e4, 5e3); the documented accuracy is 1e-6)."""
+    from infer.core.drift import concentrated as rule
+    from infer.core.drift.quadrature import _log_z
+    from infer.core.drift.stationary import _log_ratio, _summary
+
+    a, b, c, hh = (np.array([v]) for v in (4 * Ne * mu, 4 * Ne * nu, 2 * Ne * s, h))
+    assert max(a[0], b[0], abs(c[0])) == pytest.approx(rule.LIMIT), "test premise: at LIMIT"
+    mask, peak = rule.concentrated(a, b, c, hh)
+    assert mask[0], f"test premise: the row {(Ne, mu, s, h, nu)} is concentrated"
+    probs = {"lower": 0.025, "median": 0.5, "upper": 0.975}
+    general = _summary(a, b, c, hh, probs)
+    mean, sd = rule.summary(peak)
+    centred = {"mean": mean, "sd": sd, **{k: rule.quantile(peak, p) for k, p in probs.items()}}
+    for key in general:
+        np.testing.assert_allclose(centred[key], general[key], rtol=1e-7,
+                                   err_msg=f"{key}: centred vs general rule at the switch")
+    np.testing.assert_allclose(rule.log_z(peak), _log_z(a, b, c, hh), rtol=1e-12,
+                               err_msg="log Z: centred vs general rule")
+    for k, n in ((0, 10), (3, 100), (50, 1000)):
+        kk, nn = np.array([float(k)]), np.array([float(n)])
+        centred_lp, ok = rule.log_binomial(peak, kk, nn)
+        assert ok[0], f"the centred rule must resolve {k} of {n}"
+        np.testing.assert_allclose(centred_lp, _log_ratio(kk, nn, a, b, c, hh), atol=1e-8,
+                                   err_msg=f"log P({k} of {n}): centred vs general rule")
+    eps = 1e-9  # Ne just below (general rule) and just above (centred rule) the switch
+    below = drift.stationary_summary(Ne * (1 - eps), mu, s, h, nu)
+    above = drift.stationary_summary(Ne * (1 + eps), mu, s, h, nu)
+    for key in below:
+        assert abs(above[key] / below[key] - 1) < 1e-7, (
+            f"{key} jumps across the switch: {float(below[key])!r} -> {float(above[key])!r}")
+
+
+def test_large_ne_log_expectation_matches_binomial():
+    """log_expectation of a binomial P(k | x) equals log_binomial_probability on concentrated
+    rows too (both are derived from the same density; different integration rules)."""
+    Ne = np.array([1e9, 1e12, 1e300])
+    for k, n in [(0, 10), (3, 1000), (1, 10**6)]:
+
+        def log_p(x, k=k, n=n):
+            choose = special.gammaln(n + 1) - special.gammaln(k + 1) - special.gammaln(n - k + 1)
+            return choose + special.xlogy(k, x) + special.xlog1py(n - k, -x)
+
+        got = drift.log_expectation(log_p, Ne, **BIG)
+        np.testing.assert_allclose(got, drift.log_binomial_probability(k, n, Ne, **BIG),
+                                   atol=1e-8, err_msg=f"log_expectation ({k} of {n}) at large Ne")
+
+
+def test_large_ne_density_integrates_to_one():
+    """φ integrates to 1 on concentrated rows: trapezoid over x̂ ± 12 sd (closed form: the
+    normalisation), Ne = 1e12."""
+    Ne = 1e12
+    mode, sd = reference.diffusion_balance(Ne, **BIG), reference.linear_noise_sd(Ne, **BIG)
+    x = mode + sd * np.linspace(-12, 12, 4001)
+    total = np.trapezoid(drift.stationary_density(x, Ne, **BIG), x)
+    assert total == pytest.approx(1.0, rel=1e-6), f"∫φ = {total!r} at Ne = 1e12"
+
+
+MPMATH_LARGE = [  # (Ne, mu, s, h, nu): the issue's example and other dominance values
+    (1e6, 1e-5, 0.5, 0.5, 1e-9),
+    (1e9, 1e-5, 0.5, 0.5, 1e-9),
+    (1e12, 1e-5, 0.5, 0.5, 1e-9),
+    (1e10, 1e-5, 0.5, 0.0, 1e-9),
+    (1e10, 1e-5, 0.5, 0.9, 1e-9),
+    (1e11, 1e-5, 0.5, 0.3, 1e-13),
+    (1e5, 1e-3, 0.5, 0.0, 1e-5),
+]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("Ne, mu, s, h, nu", MPMATH_LARGE)
+def test_large_ne_against_mpmath(Ne, mu, s, h, nu):
+    """Mean, sd and log P(3 of 100) against mpmath.quad of the raw density at 40 + log10 Ne
+    digits (drift_reference.concentrated_moments): relative error <= 1e-9 (mean, sd) and
+    absolute <= 1e-9 (log P), for Ne from 1e5 to 1e12."""
+    mean, sd, log_p = reference.concentrated_moments(Ne, mu, s, h, nu, k=3, n=100)
+    got = drift.stationary_summary(Ne, mu, s, h, nu)
+    case = f"(Ne, mu, s, h, nu) = {(Ne, mu, s, h, nu)}"
+    assert abs(got["mean"] / float(mean) - 1) <= 1e-9, f"mean {got['mean']!r} vs {mean} at {case}"
+    assert abs(got["sd"] / float(sd) - 1) <= 1e-9, f"sd {got['sd']!r} vs {sd} at {case}"
+    lp = drift.log_binomial_probability(3, 100, Ne, mu, s, h, nu)
+    assert abs(lp - float(log_p)) <= 1e-9, f"log P(3 of 100) {lp!r} vs {log_p} at {case}"
+
+
+def test_centred_exponent_series_against_mpmath():
+    """λ(u) = log(1+u) - u, the centred rule's building block, to a few ulps relative over
+    u from 1e-150 to 3 (mpmath log1p at 400 digits), in arrays of every range mix (the
+    series length depends on the largest |u|)."""
+    from infer.core.drift.concentrated import _lambda
+
+    u = np.array([1e-150, -1e-20, 1e-9, -3e-5, 2e-3, -0.05, 0.0999, 0.1, 0.5, -0.9, 3.0])
+    with mp.workdps(400):
+        expected = [mp.log1p(mp.mpf(x)) - mp.mpf(x) for x in u]
+        for k in range(1, u.size + 1):
+            got = _lambda(u[:k])
+            worst = max(abs((mp.mpf(g) - e) / e) for g, e in zip(got, expected[:k], strict=True))
+            assert worst < 5e-16, f"λ(u) on {u[:k]}: relative error {float(worst):.2g}"

@@ -1,13 +1,15 @@
 """Property-based tests (hypothesis) of Wright's stationary density
 (infer.core.drift.stationary) over the documented ranges of Ne, mu, s, h and nu (docs/model.md,
-'Finite populations (drift)'; strategies in tests/core/parameter_ranges.py)."""
+'Finite populations (drift)'; strategies in tests/core/parameter_ranges.py), and of its
+large-Ne limit."""
 
 from __future__ import annotations
 
 import numpy as np
 from hypothesis import given
 from hypothesis import strategies as st
-from parameter_ranges import FEW, MU, NE, NU, H, S, failing_rows, rows
+import drift_reference as reference
+from parameter_ranges import FEW, MU, NE, NU, H, S, failing_rows, log_uniform, rows
 from scipy.special import logsumexp
 
 from infer.core.drift import stationary as drift
@@ -60,3 +62,30 @@ def test_drift_sample_probabilities_are_finite_and_sum_to_one(params, n):
         + failing_rows(ok, Ne=Ne, mu=mu, s=s, h=h, nu=nu))
     np.testing.assert_allclose(np.exp(logsumexp(log_p, axis=0)), 1.0, rtol=1e-6,
                                err_msg=f"P(k of {n}) summed over k must be 1 (derived)")
+
+
+@FEW
+@given(rows(log_uniform(15, 300), log_uniform(-9, -5), log_uniform(-3, 0), st.floats(0.0, 0.5),
+            NU, max_size=6))
+def test_large_ne_is_the_linear_noise_limit(params):
+    """Ne from 1e15 to 1e300 (4Ne·mu >= 4e6): the mean is the diffusion balance (brentq on
+    M(x) = (1-2x)/(4Ne)) and the sd the linear-noise sd sqrt(V/(2|M'|)) (Kimura 1964; Ewens
+    2004, §4.5; drift_reference), each to 10/(4Ne·mu) relative (derived: Laplace's method),
+    and lower <= median <= upper within 6 sd of the balance (or of the mode's rounding when
+    the sd is below an ulp); h <= 1/2 keeps the density
+    unimodal (derived: log φ concave)."""
+    Ne, mu, s, h, nu = params
+    got = drift.stationary_summary(Ne, mu, s, h, nu)
+    for i in range(Ne.size):
+        row = (Ne[i], mu[i], s[i], h[i], nu[i])
+        mode, sd = reference.diffusion_balance(*row), reference.linear_noise_sd(*row)
+        tolerance = 10 / (4 * Ne[i] * mu[i]) + 1e-13
+        assert abs(got["mean"][i] / mode - 1) <= tolerance, (
+            f"mean {got['mean'][i]!r} vs the diffusion balance {mode!r} at {row}")
+        assert abs(got["sd"][i] / sd - 1) <= tolerance, (
+            f"sd {got['sd'][i]!r} vs the linear-noise sd {sd!r} at {row}")
+        lower, median, upper = got["lower"][i], got["median"][i], got["upper"][i]
+        assert lower <= median <= upper, f"quantiles out of order at {row}"
+        slack = 6 * sd + 1e-14 * mode  # 6 sd, or the rounding of the mode (a few ulps)
+        assert abs(lower - mode) <= slack and abs(upper - mode) <= slack, (
+            f"interval [{lower!r}, {upper!r}] far from {mode!r} at {row}")

@@ -9,13 +9,15 @@ from __future__ import annotations
 
 import codecs
 
+import numpy as np
 import pytest
 from conftest import DEMO, call_qhat
 
 from infer.errors import InputError
 from infer.files import reading
 from infer.files.claim import load_claim
-from infer.files.loci import read_loci
+from infer.files import loci
+from infer.files.loci import read_loci, scan_loci
 from infer.files.study import load_study
 
 LOCI = "locus,observed,sampled,mu\nGENE1,1,1000,1e-6\nGENE2,0,800,2e-6\n"
@@ -187,3 +189,62 @@ def test_demo_files_still_read():
     assert load_study(DEMO / "island-dominant.toml").title, "demo study lost its title"
     assert load_claim(DEMO / "claim-northholm-indirect.toml").values, "demo claim empty"
     assert read_loci(DEMO / "batch_loci.csv").names, "demo loci file has no loci"
+
+
+# --- the loci file read block by block (qhat batch streams it) -------------------------
+
+def _loci_file(tmp_path, rows):
+    path = tmp_path / "loci.csv"
+    path.write_text("locus,observed,sampled,mu\n" + "".join(f"{r}\n" for r in rows))
+    return path
+
+
+def test_a_repeated_header_column_is_refused_by_name(tmp_path):
+    """A repeated column would be read from one copy and silently drop the other."""
+    path = tmp_path / "loci.csv"
+    path.write_text("locus,Observed,sampled,mu, observed ,mu\nA,1,100,1e-6,5,2e-6\n")
+    line = _message(read_loci, path)
+    assert line == (f"{path}: line 1: the header repeats the columns 'observed', 'mu' (each "
+                    "column may appear once)"), f"want the file and both columns named: {line}"
+
+
+def test_a_name_repeated_blocks_apart_names_its_first_line(tmp_path):
+    """Source: the file itself: GENE2 is on line 3 and again on line 9 (blocks of 2 rows)."""
+    rows = [f"GENE{i},1,1000,1e-6" for i in range(1, 8)] + ["GENE2,1,1000,1e-6"]
+    path = _loci_file(tmp_path, rows)
+    with pytest.raises(InputError) as caught:
+        scan_loci(path, {}, block_rows=2)
+    assert str(caught.value) == f"{path}: line 9, column locus: 'GENE2' repeats line 3", (
+        f"want the repeat on line 9 and the first on line 3: {caught.value}")
+    kept = {}
+    scan = scan_loci(path, kept, skip_bad_rows=True, block_rows=2)
+    names = [n for i in range(scan.blocks) for n in kept[i].names]
+    assert names == [f"GENE{i}" for i in range(1, 8)] and scan.count == 7, (
+        f"the repeated row must be the one left out: {names}")
+    assert [s["line"] for s in scan.skipped] == [9], f"skipped {scan.skipped}"
+
+
+def test_hash_collisions_never_reject_a_row(tmp_path, monkeypatch):
+    """Every name given the same hash: the exact confirmation must keep all distinct rows."""
+    monkeypatch.setattr(loci._SeenNames, "_hashes",
+                        staticmethod(lambda names: np.zeros(len(names), dtype=np.int64)))
+    path = _loci_file(tmp_path, [f"G{i},1,1000,1e-6" for i in range(10)])
+    kept = {}
+    scan = scan_loci(path, kept, block_rows=3)
+    assert scan.count == 10 and scan.blocks == 4, f"{scan.count} rows in {scan.blocks} blocks"
+
+
+def test_blocks_hold_the_rows_read_loci_returns(tmp_path):
+    """Blocks of 3 rows laid end to end are the whole table, line numbers included."""
+    rows = [f"G{i},{i % 5},1000,{(i + 1) * 1e-7:g}" for i in range(11)]
+    rows.insert(4, "G99,x,1000,1e-6")
+    path = _loci_file(tmp_path, rows)
+    whole = read_loci(path, skip_bad_rows=True)
+    kept = {}
+    scan = scan_loci(path, kept, skip_bad_rows=True, block_rows=3)
+    blocks = [kept[i] for i in range(scan.blocks)]
+    assert [n for b in blocks for n in b.names] == whole.names, "names differ"
+    np.testing.assert_array_equal(np.concatenate([b.lines for b in blocks]), whole.lines)
+    np.testing.assert_array_equal(np.concatenate([b.observed for b in blocks]), whole.observed)
+    assert scan.max_observed == 4 and scan.skipped == whole.skipped, (
+        f"max observed {scan.max_observed}, skipped {scan.skipped}")

@@ -49,6 +49,11 @@ def _cases():
          stats.truncnorm(a=-1.5, b=3.5, loc=0.3, scale=0.2), None),
         ("normal alpha", prior("alpha", prior="normal", mean=2.0, sd=1.5),
          stats.truncnorm(a=-2.0 / 1.5, b=np.inf, loc=2.0, scale=1.5), None),
+        # the support in one tail of the normal: the lower tail, then the upper
+        ("normal s, mean above 1", prior("s", prior="normal", mean=1.6, sd=0.15),
+         stats.truncnorm(a=-1.6 / 0.15, b=-0.6 / 0.15, loc=1.6, scale=0.15), None),
+        ("normal h, mean below 0", prior("h", prior="normal", mean=-0.5, sd=0.2),
+         stats.truncnorm(a=2.5, b=7.5, loc=-0.5, scale=0.2), None),
     ]
 
 
@@ -211,6 +216,13 @@ BAD = [
     ("h", {"prior": "normal", "mean": 0.3, "sd": -0.1}, "parameters.h.sd", "-0.1 is not above 0"),
     ("h", {"prior": "normal", "mean": 60.0, "sd": 0.1}, "parameters.h",
      "puts no probability inside the support"),
+    # narrower than double precision can sample (MIN_RELATIVE_SPREAD)
+    ("mu", {"prior": "log-normal", "median": 1e-5, "sigma": 1e-15}, "parameters.mu.sigma",
+     "1e-15 is too narrow"),
+    ("s", {"prior": "normal", "mean": 0.5, "sd": 1e-300}, "parameters.s.sd",
+     "1e-300 is too narrow"),
+    ("s", {"prior": "uniform", "low": 0.5, "high": 0.5000000000000001}, "parameters.s",
+     "too narrow"),
     ("s", {"prior": "beta", "a": 0.0, "b": 2.0}, "parameters.s.a", "0.0 is not above 0"),
     ("Ne", {"prior": "beta", "a": 2.0, "b": 2.0}, "parameters.Ne.prior",
      '"beta" is for parameters on [0, 1]'),
@@ -239,3 +251,39 @@ def test_bad_parameters_name_field_and_value(name, value, field, text):
     assert caught.value.field == field
     assert text in caught.value.message
     assert "\n" not in str(caught.value)
+
+
+def test_normal_with_a_huge_sd_is_uniform_on_a_bounded_support():
+    """Closed form: Normal(m, sd) truncated to [0, 1] has density proportional to
+    exp(-(x - m)^2 / (2 sd^2)), which is flat to 1e-600 at sd = 1e300, so the prior is
+    uniform(0, 1) (scipy.stats.uniform as the reference); it used to be refused as
+    putting "no probability inside the support"."""
+    wide = prior("s", prior="normal", mean=0.5, sd=1e300)
+    p = np.array([1e-6, 0.01, 0.3, 0.5, 0.9, 0.999])
+    uniform = stats.uniform(0.0, 1.0)
+    # x = mean + sd * t loses the digits of x below those of the mean (1e-16 absolute)
+    np.testing.assert_allclose(wide.quantile(p), uniform.ppf(p), rtol=1e-12, atol=1e-15,
+                               err_msg="quantiles of normal(0.5, 1e300) on (0, 1] vs uniform")
+    np.testing.assert_allclose(wide.cdf(p), uniform.cdf(p), rtol=1e-12, atol=1e-15,
+                               err_msg="cdf of normal(0.5, 1e300) on (0, 1] vs uniform")
+    np.testing.assert_allclose(wide.log_density(p), uniform.logpdf(p), atol=1e-12,
+                               err_msg="log density of normal(0.5, 1e300) vs uniform")
+
+
+def test_relative_spread_against_scipy():
+    """The spread the narrow-prior check reads: the interquartile range over the median,
+    the smaller of its value on x and on the logit scale (scipy.stats.lognorm quantiles,
+    scipy.special.logit as the reference)."""
+    from scipy import special
+
+    from infer.model.priors.parsing import MIN_RELATIVE_SPREAD, relative_spread
+
+    for sigma in (1e-3, 1e-9):
+        lognormal = prior("mu", prior="log-normal", median=1e-5, sigma=sigma)
+        x = stats.lognorm(s=sigma, scale=1e-5).ppf([0.25, 0.5, 0.75])
+        z = special.logit(x)
+        expected = min((x[2] - x[0]) / x[1], (z[2] - z[0]) / abs(z[1]))
+        assert relative_spread(lognormal) == pytest.approx(expected, rel=1e-5), (
+            f"relative spread of log-normal(1e-5, {sigma}) vs scipy")
+        assert relative_spread(lognormal) >= MIN_RELATIVE_SPREAD, (
+            f"log-normal(1e-5, {sigma}) is wide enough to sample and must be accepted")

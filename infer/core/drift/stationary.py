@@ -47,6 +47,11 @@ as b + (n - k), never (b + n) - k, which would lose b when b ≪ 1 ≪ n.
 
 The mean is Z(a+1)/Z(a) and sd² = mean·(Z(a+2)/Z(a+1) - mean); quantiles invert the CDF by
 the end series at the ends and by Newton in y on the clipped panels inside.
+
+Large Ne: rows whose density is one narrow interior peak and whose exponents reach
+:data:`infer.core.drift.concentrated.LIMIT` (the rule and its tests are in that module)
+are integrated around the mode instead, where these integrals of size-Ne exponents lose
+their digits; every public function below splits its rows between the two rules.
 """
 
 from __future__ import annotations
@@ -68,6 +73,7 @@ from infer.core.drift.quadrature import (
     _nodes,
     _panels,
 )
+from infer.core.drift import concentrated as _peak_rule
 from infer.core.stats import log_choose
 from infer.errors import InputError
 
@@ -133,18 +139,30 @@ def log_normaliser(Ne, mu, s, h, nu):
         log ∫_0^1 x^(4Ne·mu-1)(1-x)^(4Ne·nu-1) exp(-2Ne·s(2hx+(1-2h)x²)) dx.
     """
     shape, a, b, c, h, _ = _exponents(Ne, mu, s, h, nu)
-    return _log_z(a, b, c, h).reshape(shape)
+    mask, peak = _peak_rule.concentrated(a, b, c, h)
+    if peak is None:
+        return _log_z(a, b, c, h).reshape(shape)
+    out = np.empty(a.size)
+    out[mask] = _peak_rule.log_z(peak)
+    rest = ~mask
+    if rest.any():
+        out[rest] = _log_z(a[rest], b[rest], c[rest], h[rest])
+    return out.reshape(shape)
 
 
 def stationary_density(x, Ne, mu, s, h, nu):
     """Normalised stationary density φ(x); all arguments broadcast."""
     shape, a, b, c, h, (x,) = _exponents(Ne, mu, s, h, nu, x)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        log_phi = (a - 1) * np.log(x) + (b - 1) * np.log1p(-x) - c * x * (2 * h + (1 - 2 * h) * x)
     inside = (x > 0) & (x < 1)
-    return np.where(inside, np.exp(np.where(inside, log_phi, 0) - _log_z(a, b, c, h)), 0.0).reshape(
-        shape
-    )
+    mask, peak = _peak_rule.concentrated(a, b, c, h)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        log_phi = (a - 1) * np.log(x) + (b - 1) * np.log1p(-x) - c * x * (2 * h + (1 - 2 * h) * x)
+        rest = ~mask
+        if rest.any():
+            log_phi[rest] -= _log_z(a[rest], b[rest], c[rest], h[rest])
+        if peak is not None:
+            log_phi[mask] = _peak_rule.log_density(peak, x[mask])
+        return np.where(inside, np.exp(np.where(inside, log_phi, -np.inf)), 0.0).reshape(shape)
 
 
 def stationary_summary(Ne, mu, s, h, nu, interval=0.95):
@@ -166,16 +184,33 @@ def stationary_summary(Ne, mu, s, h, nu, interval=0.95):
     if not 0 < interval < 1:
         raise InputError(f"{interval!r} is not in (0, 1)", field="interval")
     shape, a, b, c, h, _ = _exponents(Ne, mu, s, h, nu)
+    probs = {"lower": (1 - interval) / 2, "median": 0.5, "upper": (1 + interval) / 2}
+    mask, peak = _peak_rule.concentrated(a, b, c, h)
+    if peak is None:
+        out = _summary(a, b, c, h, probs)
+    else:
+        out = {key: np.empty(a.size) for key in ("mean", "sd", *probs)}
+        rest = ~mask
+        if rest.any():
+            for key, value in _summary(a[rest], b[rest], c[rest], h[rest], probs).items():
+                out[key][rest] = value
+        out["mean"][mask], out["sd"][mask] = _peak_rule.summary(peak)
+        for key, p in probs.items():
+            out[key][mask] = _peak_rule.quantile(peak, p)
+    return {key: value.reshape(shape) for key, value in out.items()}
+
+
+def _summary(a, b, c, h, probs):
+    """Mean, sd and quantiles ``probs`` by the general quadrature (flat rows)."""
     base = _Layout(a, b, c, h)
     log_z = base.log_total()
     mean = np.exp(_log_z(a + 1, b, c, h) - log_z)
     ratio = np.exp(_log_z(a + 2, b, c, h) - _log_z(a + 1, b, c, h))  # E[x²]/E[x]
     sd = np.sqrt(np.maximum(mean * (ratio - mean), 0.0))
-    probs = {"lower": (1 - interval) / 2, "median": 0.5, "upper": (1 + interval) / 2}
     out = {"mean": mean, "sd": sd}
     for key, p in probs.items():
         out[key] = _quantile(base, log_z, p)
-    return {key: value.reshape(shape) for key, value in out.items()}
+    return out
 
 
 def _quantile(layout, log_z, p):
@@ -216,8 +251,15 @@ def stationary_quantile(p, Ne, mu, s, h, nu):
     shape, a, b, c, h, (p,) = _exponents(Ne, mu, s, h, nu, p)
     if np.any((p <= 0) | (p >= 1)):
         raise InputError("probabilities must lie in (0, 1)", field="p")
-    layout = _Layout(a, b, c, h)
-    return _quantile(layout, layout.log_total(), p).reshape(shape)
+    mask, peak = _peak_rule.concentrated(a, b, c, h)
+    out = np.empty(a.size)
+    rest = ~mask
+    if rest.any():
+        layout = _Layout(a[rest], b[rest], c[rest], h[rest])
+        out[rest] = _quantile(layout, layout.log_total(), p[rest])
+    if peak is not None:
+        out[mask] = _peak_rule.quantile(peak, p[mask])
+    return out.reshape(shape)
 
 
 def sample_stationary(rng, Ne, mu, s, h, nu):
@@ -297,12 +339,26 @@ def log_binomial_probability(k, n, Ne, mu, s, h, nu):
         shape, a, b, c, h, _ = _exponents(Ne, mu, s, h, nu)
     else:
         shape, a, b, c, h, (k, n) = _exponents(Ne, mu, s, h, nu, k, n)
+    mask, peak = _peak_rule.concentrated(a, b, c, h)
+    if peak is None:
+        return (log_choose(n, k) + _log_ratio(k, n, a, b, c, h)).reshape(shape)
+    k, n = np.broadcast_to(k, a.shape), np.broadcast_to(n, a.shape)
+    out = np.empty(a.size)
+    rest = ~mask
+    out[mask], resolved = _peak_rule.log_binomial(peak, k[mask], n[mask])
+    rest[np.flatnonzero(mask)[~resolved]] = True  # the sample pulls off the peak's window
+    if rest.any():
+        out[rest] = _log_ratio(k[rest], n[rest], a[rest], b[rest], c[rest], h[rest])
+    return (log_choose(n, k) + out).reshape(shape)
+
+
+def _log_ratio(k, n, a, b, c, h):
+    """Log Z(a+k, b+n-k) - log Z(a, b) by the general quadrature (flat rows)."""
     log_z = _log_z(
         np.concatenate((a + k, a)), np.concatenate((b + (n - k), b)), np.concatenate((c, c)),
         np.concatenate((h, h)),
     )
-    size = a.size
-    return (log_choose(n, k) + log_z[:size] - log_z[size:]).reshape(shape)
+    return log_z[: a.size] - log_z[a.size :]
 
 
 def probability_absent(sample_alleles, Ne, mu, s, h, nu):
@@ -400,8 +456,35 @@ def log_expectation(log_p_given_x, Ne, mu, s, h, nu):
     callable sees x rounded to double precision (1 - x resolved to ~1e-16).
     """
     shape, a, b, c, h, _ = _exponents(Ne, mu, s, h, nu)
+    mask, peak = _peak_rule.concentrated(a, b, c, h)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
-        return _log_expectation(log_p_given_x, a, b, c, h).reshape(shape)
+        if peak is None:
+            return _log_expectation(log_p_given_x, a, b, c, h).reshape(shape)
+        out = np.empty(a.size)
+        out[mask], resolved = _peak_rule.log_expectation(peak, _on_rows(log_p_given_x, mask))
+        rest = ~mask
+        rest[np.flatnonzero(mask)[~resolved]] = True
+        if rest.any():
+            out[rest] = _log_expectation(
+                _on_rows(log_p_given_x, rest), a[rest], b[rest], c[rest], h[rest]
+            )
+        return out.reshape(shape)
+
+
+def _on_rows(log_p_given_x, rows):
+    """The callable restricted to the rows ``rows`` (it is always called with every row)."""
+
+    def log_p(x):
+        full = np.full((rows.size, x.shape[1]), 0.5)
+        full[rows] = x
+        out = np.asarray(log_p_given_x(full), dtype=float)
+        if out.shape != full.shape:
+            raise InputError(
+                f"returned shape {out.shape}, expected {full.shape}", field="log_p_given_x"
+            )
+        return out[rows]
+
+    return log_p
 
 
 def _log_expectation(log_p_given_x, a, b, c, h):

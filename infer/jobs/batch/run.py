@@ -78,6 +78,7 @@ by ``infer.files.loci`` and the report folder written by ``infer.reporting.batch
 
 from __future__ import annotations
 
+import collections
 import math
 from dataclasses import dataclass, replace
 
@@ -111,6 +112,10 @@ __all__ = [
     "log_marginal_surface",
     "fit_log_normal_prior",
     "run_chunk",
+    "recut",
+    "fit_prior",
+    "posteriors",
+    "add_log_marginal",
 ]
 
 
@@ -200,6 +205,36 @@ def run_chunk(task):
     ``mu_sigma``. Top level so that process pools and dask can pickle it.
     """
     stage, arrays, settings, prior = task
+    rows = arrays["observed"].size
+    group = rows_per_call(settings)
+    if settings.model == "drift" or group >= rows:
+        return _run_rows(stage, arrays, settings, prior)
+    # a large grid: the rows in groups, so that no single numpy call runs for long and
+    # a SIGTERM or Ctrl-C is handled within a fraction of a second (each row's results
+    # are elementwise in the deterministic model; the surface is summed group by group)
+    parts = [_run_rows(stage, {name: values[start:start + group]
+                               for name, values in arrays.items()}, settings, prior)
+             for start in range(0, rows, group)]
+    if stage == "surface":
+        surface = parts[0][0]
+        for part, _ in parts[1:]:
+            surface = surface + part
+        return surface, None
+    return {name: np.concatenate([part[name] for part in parts]) for name in parts[0]}
+
+
+#: multiply-adds of one likelihood call (rows x S x (2J + 1)) above which ``run_chunk``
+#: works a chunk's rows in groups (about 0.1 s of numpy work)
+WORK_PER_CALL = 1e8
+
+
+def rows_per_call(settings: BatchSettings) -> int:
+    """Rows of a chunk worked in one call (deterministic model): WORK_PER_CALL / (S·(2J+1))."""
+    per_row = settings.grid_points * (2 * settings.half_width + 1)
+    return max(1, int(WORK_PER_CALL // per_row))
+
+
+def _run_rows(stage, arrays, settings, prior):
     k, n, mu, sigma = arrays["observed"], arrays["sampled"], arrays["mu"], arrays["mu_sigma"]
     coarse = arrays.get("coarse_log_l")
     if settings.model == "drift" and coarse is None:
@@ -231,13 +266,86 @@ class BatchResult:
     log_marginal: float   # summed over loci, under ``prior``
 
 
-def _tasks(stage, arrays, settings, prior, chunk_size, store=None):
-    size = len(arrays["observed"])
-    for index, start in enumerate(range(0, size, chunk_size)):
-        part = {name: values[start:start + chunk_size] for name, values in arrays.items()}
+#: the columns a chunk hands to ``run_chunk``
+_TASK_COLUMNS = ("observed", "sampled", "mu", "mu_sigma")
+
+
+def _concat(a, b):
+    return a + b if isinstance(a, list) else np.concatenate([a, b])
+
+
+def recut(blocks, chunk_size):
+    """Cut consecutive blocks (dicts of equal-length columns) into chunks of ``chunk_size``.
+
+    Every chunk but the last holds exactly ``chunk_size`` rows, so the chunks, and hence
+    the results, do not depend on how the rows were blocked.
+    """
+    carry = None
+    for block in blocks:
+        if carry is not None:
+            block = {name: _concat(carry[name], block[name]) for name in block}
+        size = len(block["observed"])
+        whole = size - size % chunk_size
+        for start in range(0, whole, chunk_size):
+            yield {name: values[start:start + chunk_size] for name, values in block.items()}
+        carry = {name: values[whole:] for name, values in block.items()} if whole < size \
+            else None
+    if carry is not None:
+        yield carry
+
+
+def _tasks(stage, chunks, settings, prior, store=None, in_flight=None):
+    for index, chunk in enumerate(chunks):
+        part = {name: chunk[name] for name in _TASK_COLUMNS}
         if store is not None:
             part["coarse_log_l"] = store[index]
+        if in_flight is not None:
+            in_flight.append(chunk)
         yield stage, part, settings, prior
+
+
+def fit_prior(chunks, settings: BatchSettings, *, map_chunks=map, progress=None, store=None):
+    """First pass of the empirical prior: the summed surface over all chunks, fitted.
+
+    Parameters
+    ----------
+    chunks : iterable of dict
+        Chunks (``recut``) with ``observed, sampled, mu, mu_sigma``.
+    settings : BatchSettings
+        With the half width of every locus (``with_half_width``).
+    map_chunks, progress
+        As for :func:`analyse`.
+    store : mutable mapping, optional
+        Drift model: receives each chunk's coarse log-likelihood by chunk index.
+
+    Returns
+    -------
+    FittedPrior
+    """
+    surface = None
+    for index, (part, coarse) in enumerate(map_chunks(run_chunk, _tasks("surface", chunks,
+                                                                          settings, None))):
+        surface = part if surface is None else surface + part   # fixed chunk order
+        if store is not None:
+            store[index] = coarse
+        if progress:
+            progress()
+    return fit_log_normal_prior(surface, settings)
+
+
+def posteriors(chunks, settings: BatchSettings, prior: SHetPrior, *, map_chunks=map,
+               progress=None, store=None):
+    """Yield ``(chunk, posterior_summary dict)`` chunk by chunk, in order.
+
+    Only the chunks in flight in ``map_chunks`` are held; ``store`` holds the coarse
+    log-likelihoods of :func:`fit_prior` (drift model), or is None.
+    """
+    in_flight = collections.deque()
+    tasks = _tasks("posterior", chunks, settings, prior, store, in_flight)
+    for part in map_chunks(run_chunk, tasks):
+        yield in_flight.popleft(), part
+        if progress:
+            progress()
 
 
 def analyse(observed, sampled, mu, mu_sigma, settings: BatchSettings, *, prior="log-uniform",
@@ -280,27 +388,28 @@ def analyse(observed, sampled, mu, mu_sigma, settings: BatchSettings, *, prior="
             store = None              # only the drift integrals are worth keeping
         elif store is None:
             store = {}
-        surface = None
-        tasks = _tasks("surface", arrays, settings, None, chunk_size)
-        for index, (part, coarse) in enumerate(map_chunks(run_chunk, tasks)):
-            surface = part if surface is None else surface + part   # fixed chunk order
-            if store is not None:
-                store[index] = coarse
-            if progress:
-                progress()
-        fitted = fit_log_normal_prior(surface, settings)
+        fitted = fit_prior(recut([arrays], chunk_size), settings, map_chunks=map_chunks,
+                           progress=progress, store=store)
         prior = fitted.prior
     else:
         store = None
     if prior == "log-uniform":
         prior = SHetPrior()
-    parts = []
-    for part in map_chunks(run_chunk, _tasks("posterior", arrays, settings, prior, chunk_size,
-                                             store)):
-        parts.append(part)
-        if progress:
-            progress()
+    parts = [part for _, part in posteriors(recut([arrays], chunk_size), settings, prior,
+                                            map_chunks=map_chunks, progress=progress,
+                                            store=store)]
     loci = {name: np.concatenate([part[name] for part in parts]) for name in parts[0]}
-    finite = loci["log_marginal"][np.isfinite(loci["log_marginal"])]
+    total = 0.0
+    for part in parts:
+        total = add_log_marginal(total, part)
     return BatchResult(loci=loci, settings=settings, prior=prior, fitted=fitted, chunks=chunks,
-                       log_marginal=float(np.sum(finite)))
+                       log_marginal=total)
+
+
+def add_log_marginal(total: float, part: dict) -> float:
+    """``total`` plus the finite log marginals of one chunk, exactly rounded (math.fsum).
+
+    Summed chunk by chunk in chunk order, so a streamed run and :func:`analyse` agree.
+    """
+    values = part["log_marginal"]
+    return math.fsum([total, *values[np.isfinite(values)].tolist()])

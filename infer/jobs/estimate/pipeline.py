@@ -30,6 +30,12 @@ def sampler_settings(study) -> SamplerSettings:
     return SamplerSettings(**given)
 
 
+def _free_values(model, z: np.ndarray) -> np.ndarray:
+    """The free parameters on their own scale, (n, ndim), of unconstrained rows ``z``."""
+    params, _ = model.to_parameters(z)
+    return np.column_stack([params[name] for name in model.free])
+
+
 def estimate(study, seed: int | None = None, settings: SamplerSettings | None = None,
              progress: Callable[[int, int], None] | None = None,
              grid: bool = True) -> tuple[EstimateResult, dict]:
@@ -62,7 +68,8 @@ def estimate(study, seed: int | None = None, settings: SamplerSettings | None = 
     rng = np.random.default_rng(seed)
     model = Model(study)
     settings = settings or sampler_settings(study)
-    run = run_to_convergence(model, model.initial_points, model.ndim, rng, settings, progress)
+    run = run_to_convergence(model, model.initial_points, model.ndim, rng, settings, progress,
+                             constrain=lambda z: _free_values(model, z))
     grid_result, grid_seconds = None, 0.0
     if grid and model.ndim <= MAX_EXACT_DIMENSIONS:
         from infer.inference.exact import exact_posterior

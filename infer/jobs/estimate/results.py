@@ -30,12 +30,6 @@ __all__ = [
     "data_warnings",
 ]
 
-#: prior draws used for prior summaries, contraction and the prior predictive
-PRIOR_DRAWS = 20_000
-#: posterior draws (at most) used for derived quantities and predictive checks
-DERIVED_DRAWS = 20_000
-DRIFT_DERIVED_DRAWS = 2_000
-
 
 @dataclass
 class EstimateResult:
@@ -278,8 +272,13 @@ def identifiability(free: list[str], posterior: dict, prior: dict, parameters_su
     return statements
 
 
-def derived_quantities(model, params: dict, state) -> dict[str, np.ndarray]:
-    """Equilibrium frequency, load and affected fractions for each row of ``params``."""
+def derived_quantities(model, params: dict, state, wright: bool = True
+                       ) -> dict[str, np.ndarray]:
+    """Equilibrium frequency, load and affected fractions for each row of ``params``.
+
+    Under the drift model also Wright's mean and median (``q_mean_drift``,
+    ``q_median_drift``), unless ``wright`` is False (they cost a quadrature per row).
+    """
     from infer.core.balance import affected_fraction
 
     out = {"q_hat": np.asarray(state.q, dtype=float)}
@@ -301,7 +300,7 @@ def derived_quantities(model, params: dict, state) -> dict[str, np.ndarray]:
         out["load"] = np.asarray(state.balance.load, dtype=float)
         out["affected_dominant"] = affected_fraction("dominant", state.q, F, penetrance)
         out["affected_recessive"] = affected_fraction("recessive", state.q, F, penetrance)
-    if model.drift:
+    if model.drift and wright:
         from infer.core.drift import stationary as drift
 
         stats = drift.stationary_summary(params["Ne"], params["mu"], params["s"], params["h"],
@@ -426,6 +425,10 @@ def data_warnings(study) -> list[str]:
     return [line for obs in study.observations for line in obs.data_warnings()]
 
 
+#: posterior draws (at most) behind Wright's mean, median and drift_frequency
+DRIFT_DERIVED_DRAWS = 2_000
+
+
 def _subsample(n_total: int, n_max: int, rng: np.random.Generator) -> np.ndarray:
     if n_total <= n_max:
         return np.arange(n_total)
@@ -453,7 +456,10 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     flat_z = run.z.reshape(-1, model.ndim)
     params, _ = model.to_parameters(flat_z)
     posterior = {n: params[n].reshape(chains, draws) for n in model.free}
-    prior = {n: v[None, :] for n, v in model.prior_draws(rng, PRIOR_DRAWS).items()}
+    # as many prior draws as posterior draws, in the same (chain, draw) layout, and derived
+    # quantities and replicates at every posterior draw: posterior.nc's groups align
+    prior = {n: v.reshape(chains, draws)
+             for n, v in model.prior_draws(rng, chains * draws).items()}
 
     parameters = {}
     for j, name in enumerate(model.free):
@@ -483,22 +489,23 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
                 "scale": "linear", "defaulted": name in study.defaulted,
             }
 
-    # Wright's density costs a quadrature per draw: fewer draws under drift
-    keep = _subsample(chains * draws, DRIFT_DERIVED_DRAWS if model.drift else DERIVED_DRAWS,
-                      rng)
-    sub_params = {k: v[keep] for k, v in params.items()}
     with np.errstate(all="ignore"):
-        state = model.state(sub_params)
-        derived_flat = derived_quantities(model, sub_params, state)
+        state = model.state(params)
+        derived = {k: v.reshape(chains, draws)
+                   for k, v in derived_quantities(model, params, state, wright=False).items()}
         predictive_state = state
         if model.drift:
             from infer.core.drift import stationary as drift
             from infer.model.balance_state import BalanceState
 
-            x = drift.sample_stationary(rng, sub_params["Ne"], sub_params["mu"],
-                                        sub_params["s"], sub_params["h"], sub_params["nu"])
-            predictive_state = BalanceState.at_frequency(sub_params, x)
-    derived = {k: v[None, :] for k, v in derived_flat.items()}
+            x = drift.sample_stationary(rng, params["Ne"], params["mu"], params["s"],
+                                        params["h"], params["nu"])
+            predictive_state = BalanceState.at_frequency(params, x)
+            # Wright's mean and median cost a quadrature per draw: a subsample of draws
+            keep = _subsample(chains * draws, DRIFT_DERIVED_DRAWS, rng)
+            sub_params = {k: v[keep] for k, v in params.items()}
+            wright = derived_quantities(model, sub_params, model.state(sub_params))
+            derived.update({k: wright[k][None, :] for k in ("q_mean_drift", "q_median_drift")})
     derived_summary = {}
     for k, v in derived.items():
         med, lo, hi = central_quantiles(v, interval)
@@ -511,7 +518,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
             at = predictive_state if obs.depends_on_frequency else state
             rep = np.asarray(obs.simulate(at, rng), dtype=float)
             expected = np.asarray(obs.expected(at), dtype=float)
-        replicated.append(rep[None, :])
+        replicated.append(rep.reshape(chains, draws))
         observed = float(obs.statistic())
         predictive.append({
             "label": obs.label, "kind": obs.kind, "statistic": obs.statistic_name,
@@ -554,12 +561,12 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
         "predictive": predictive, "identifiability": statements,
     }
     summary["data_warnings"] = data_warnings(study) + shared_birth_warnings(study.observations)
-    classic = summarise_direct_indirect(study.observations, sub_params["alpha"], rng, interval)
+    classic = summarise_direct_indirect(study.observations, params["alpha"], rng, interval)
     if classic is not None:
         summary["direct_indirect"] = classic
     if model.drift:
-        summary["drift_frequency"] = drift_frequency(sub_params, x,
-                                                     derived_flat["q_mean_drift"],
+        summary["drift_frequency"] = drift_frequency(sub_params, x[keep],
+                                                     derived["q_mean_drift"].ravel(),
                                                      model.observations, interval)
     if verification is not None:
         summary["grid"] = {"quantiles": grid.quantiles, "evaluations": grid.points,

@@ -280,30 +280,58 @@ class _SupportTransform(Prior):
         """Probability the untruncated distribution gives to the support."""
         return self._support_mass
 
+    def _standard_limits(self) -> tuple[float, float]:
+        """The support's ends in standard units, (g(end) - m) / s."""
+        y_lower, y_upper = self._y_limits()
+        with np.errstate(over="ignore"):
+            return (y_lower - self._m) / self._s, (y_upper - self._m) / self._s
+
     @functools.cached_property
     def _support_mass(self) -> float:
-        y_lower, y_upper = self._y_limits()
-        return float(special.ndtr((y_upper - self._m) / self._s)
-                     - special.ndtr((y_lower - self._m) / self._s))
+        return float(_normal_between(*self._standard_limits()))
 
     def _cdf(self, x):
-        y_lower, _ = self._y_limits()
-        with np.errstate(divide="ignore"):
-            y = self._g(x)
-        below = special.ndtr((y_lower - self._m) / self._s)
-        return (special.ndtr((y - self._m) / self._s) - below) / self._mass()
+        a, _ = self._standard_limits()
+        with np.errstate(divide="ignore", over="ignore"):
+            t = (self._g(x) - self._m) / self._s
+        return _normal_between(a, t) / self._mass()
 
     def _quantile(self, p):
-        y_lower, y_upper = self._y_limits()
-        a = special.ndtr((y_lower - self._m) / self._s)
-        b = special.ndtr((y_upper - self._m) / self._s)
-        y = self._m + self._s * special.ndtri(a + p * (b - a))
-        return self._g_inverse(y)
+        a, b = self._standard_limits()
+        return self._g_inverse(self._m + self._s * _normal_inverse_between(a, b, p))
 
     def _truncation_note(self) -> str:
         if 1.0 - self._mass() > 1e-9:
             return f" truncated to {support_text(self.parameter)}"
         return ""
+
+
+def _normal_between(a, t):
+    """P(a < Z < t) for a standard normal Z and a <= t, without cancellation.
+
+    Both ends beyond +1: a difference of upper tails; both below -1: of lower tails;
+    otherwise a difference of erf terms, which near 0 keep their relative precision, so
+    that a tiny interval around the mean (a normal prior with sd 1e300 on a parameter in
+    [0, 1]) keeps its digits.
+    """
+    a, t = np.broadcast_arrays(np.asarray(a, dtype=float), np.asarray(t, dtype=float))
+    upper = special.ndtr(-a) - special.ndtr(-t)
+    lower = special.ndtr(t) - special.ndtr(a)
+    middle = 0.5 * (special.erf(t / math.sqrt(2)) - special.erf(a / math.sqrt(2)))
+    return np.where(a >= 1, upper, np.where(t <= -1, lower, middle))
+
+
+def _normal_inverse_between(a, b, p):
+    """The inverse of :func:`_normal_between`: z with P(a < Z < z) = p P(a < Z < b)."""
+    p = np.asarray(p, dtype=float)
+    mass = _normal_between(a, b)
+    with np.errstate(all="ignore"):
+        if a >= 1:     # upper tail: from the upper-tail probability of z
+            return -special.ndtri(special.ndtr(-a) - p * mass)
+        if b <= -1:    # lower tail
+            return special.ndtri(special.ndtr(a) + p * mass)
+        root2 = math.sqrt(2)
+        return root2 * special.erfinv(special.erf(a / root2) + 2 * p * mass)
 
 
 class LogNormal(_SupportTransform):

@@ -85,6 +85,8 @@ __all__ = [
     "defaults_for",
     "defaults_table",
     "parse_parameter",
+    "MIN_RELATIVE_SPREAD",
+    "relative_spread",
 ]
 
 DEFAULTS: dict[str, Prior | Fixed] = {
@@ -185,13 +187,58 @@ def _parse_prior(name: str, table: dict, field: str) -> Prior:
                 )
 
     prior = cls(name, **values)
-    if cls in (LogNormal, Normal) and prior._mass() < 1e-12:
+    # refused when the support lies far out in one tail; a mean inside the support keeps
+    # its mode there however wide the prior (sd 1e300 on s is uniform on (0, 1])
+    if cls in (LogNormal, Normal) and prior._mass() < 1e-12 and _mean_outside(prior):
         raise InputError(
             f"{prior.describe()} puts no probability inside the support "
             f"{support_text(name)} of {name}",
             field=field,
         )
+    _check_spread(prior, table, field)
     return prior
+
+
+def _mean_outside(prior: Prior) -> bool:
+    """True when the normal's mean lies outside the support (on its own scale)."""
+    a, b = prior._standard_limits()
+    return bool(a > 0 or b < 0)
+
+
+#: the narrowest prior accepted: its middle half must span this share of its median,
+#: both on the parameter's scale and in the sampler's coordinates (where float64 spacing
+#: is 2.2e-16 of the value; the sampler and the exact quadrature need many distinct
+#: values across the posterior)
+MIN_RELATIVE_SPREAD = 1e-10
+_SPREAD_KEY = {LogNormal: "sigma", Normal: "sd"}
+
+
+def relative_spread(prior: Prior) -> float:
+    """The prior's interquartile range as a share of its median.
+
+    The smaller of its value on the parameter's scale and in the unconstrained
+    coordinates (where the median counts as at least 1).
+    """
+    with np.errstate(all="ignore"):
+        x = prior.quantile(np.array([0.25, 0.5, 0.75]))
+        z = prior.to_unconstrained(x)
+        on_x = (x[2] - x[0]) / abs(x[1]) if x[1] != 0 else math.inf
+        on_z = (z[2] - z[0]) / max(1.0, abs(z[1]))
+    return float(min(on_x, on_z))
+
+
+def _check_spread(prior: Prior, table: dict, field: str) -> None:
+    spread = relative_spread(prior)
+    if not (math.isfinite(spread) and spread < MIN_RELATIVE_SPREAD):
+        return
+    key = _SPREAD_KEY.get(type(prior))
+    shown = f"{quote_value(table[key])} is too narrow: " if key else "too narrow: "
+    raise InputError(
+        f"{shown}the middle half of {prior.describe()} spans {spread:.2g} x its median, "
+        f"below the {MIN_RELATIVE_SPREAD:g} x that double precision can sample; fix "
+        f"{prior.parameter} at a bare number instead",
+        field=f"{field}.{key}" if key else field,
+    )
 
 
 def parse_parameter(name: str, value: Any, *, field: str) -> Prior | Fixed:

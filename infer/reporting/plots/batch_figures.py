@@ -24,7 +24,6 @@ __all__ = ["BATCH_FIGURE_FILES", "batch_figures"]
 #: file names of the figures, in the order they are built
 BATCH_FIGURE_FILES = ("medians.png", "observed_vs_expected.png", "prior.png")
 _BINS = 40
-_CELLS = 60
 
 
 def _log_norm(counts):
@@ -39,17 +38,15 @@ def batch_figures(report) -> dict:
     Parameters
     ----------
     report : infer.jobs.batch.report.BatchReport
-        Per-locus results, the loci read and the prior curve.
+        The finite medians, the binned (expected, observed) pairs and the prior curve.
 
     Returns
     -------
     dict of str to matplotlib.figure.Figure
         File name (``BATCH_FIGURE_FILES``) -> figure, not registered with pyplot.
     """
-    result, table = report.result, report.table
-    loci = result.loci
-    ok = np.isfinite(loci["median"])
-    medians = np.log10(loci["median"][ok])
+    result = report.result
+    medians = np.log10(report.medians)
     s = result.settings
     bins = np.linspace(math.log10(s.s_low), math.log10(s.s_high), _BINS + 1)
     medians_name, scatter_name, prior_name = BATCH_FIGURE_FILES
@@ -60,16 +57,13 @@ def batch_figures(report) -> dict:
     ax.hist(medians, bins=bins, color="#4c72b0", edgecolor="white")
     ax.set_xlabel("log10 posterior median of s_het")
     ax.set_ylabel("loci")
-    ax.set_title(f"Per-locus estimates ({ok.sum()} loci)")
+    ax.set_title(f"Per-locus estimates ({medians.size} loci)")
     figures[medians_name] = fig
 
     fig = new_figure(figsize=(6, 5), layout="tight")
     ax = fig.add_subplot()
-    x = np.log10(loci["expected"][ok] + 1.0)
-    y = np.log10(table.observed[ok] + 1.0)
-    top = max(float(np.max(x, initial=1.0)), float(np.max(y, initial=1.0))) * 1.02
-    edges = np.linspace(0.0, top, _CELLS + 1)
-    counts, _, _ = np.histogram2d(x, y, bins=[edges, edges])
+    counts, edges = report.scatter     # binned chunk by chunk (BatchTally)
+    top = float(edges[-1])
     shown = np.ma.masked_equal(counts.T, 0)
     image = ax.pcolormesh(edges, edges, shown, cmap="viridis", norm=_log_norm(shown))
     colorbar = fig.colorbar(image, ax=ax, label="loci")

@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from infer.jobs.check.trade import is_human
+from infer.core.text import shown
 from infer.reporting.plots.common import plain_log_formatters
 from infer.reporting.plots.save import new_figure
 
@@ -60,8 +61,8 @@ def claim_balance_figure(result):
     ax.set_ylabel(curve.label, fontsize=9)
     ax.legend(fontsize=7, loc="upper left", framealpha=0.85)
     ax.tick_params(labelsize=8)
-    figure.suptitle(f"{claim.title}\nbalance under the claim (others held at claimed values)",
-                    fontsize=9)
+    figure.suptitle(f"{shown(claim.title)}\nbalance under the claim "
+                    "(others held at claimed values)", fontsize=9)
     _fit_left_margin(figure, ax)
     return figure
 

@@ -13,6 +13,7 @@ import math
 import numpy as np
 
 from infer.core.stats import central_tails
+from infer.core.text import shown
 from infer.reporting.plots.save import new_figure
 
 __all__ = ["PARAMETER_LABELS", "DPI", "axis_label", "plain_log_formatters"]
@@ -89,7 +90,7 @@ def _tidy(ax, size: float = 8, nbins: int = 5) -> None:
 
 
 def _title(figure, text: str, result) -> None:
-    study_title = str(getattr(result.study, "title", "") or "")
+    study_title = shown(getattr(result.study, "title", "") or "")
     if len(study_title) > 80:
         study_title = study_title[:77] + "..."
     figure.suptitle(f"{text}\n{study_title}" if study_title else text, fontsize=11)

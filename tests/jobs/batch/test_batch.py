@@ -317,7 +317,8 @@ def test_cli_writes_the_report_folder(tmp_path, capsys):
     assert status == 0, printed.err
     names = sorted(p.name for p in out.iterdir())
     assert names == sorted([MARKER, "loci.csv", "medians.png", "observed_vs_expected.png",
-                            "prior.png", "summary.json"]), f"report folder holds {names}"
+                            "prior.png", "report.html", "report.md", "summary.json"]), (
+        f"report folder holds {names}")
     sizes = {"medians.png": (440, 660), "observed_vs_expected.png": (550, 660),
              "prior.png": (440, 660)}
     for name, shape in sizes.items():
@@ -330,8 +331,9 @@ def test_cli_writes_the_report_folder(tmp_path, capsys):
     assert "not a clinical or genetic-counselling result" in summary["caution"], (
         f"caution {summary['caution']!r}")
     assert summary["prior"]["fitted"]["sigma"] > 0, f"fitted prior {summary['prior']['fitted']}"
-    assert summary["files"] == ["loci.csv", "summary.json", "medians.png",
-                                "observed_vs_expected.png", "prior.png"], summary["files"]
+    assert summary["files"] == ["loci.csv", "summary.json", "report.md", "report.html",
+                                "medians.png", "observed_vs_expected.png", "prior.png"], (
+        summary["files"])
     with open(out / "loci.csv", newline="") as handle:
         rows = list(csv.DictReader(handle))
     assert len(rows) == 200 and rows[0]["locus"] == "GENE0001", (
@@ -488,7 +490,7 @@ def test_locus_names_never_become_paths(tmp_path):
     assert main(["batch", str(source), "--out", str(out), "--quiet"]) == 0, "odd names must run"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["odd.csv", "out"], (
         f"a locus name became a path: {sorted(p.name for p in tmp_path.iterdir())}")
-    assert len(list(out.iterdir())) == 6, f"report holds {sorted(os.listdir(out))} (5 + {MARKER})"
+    assert len(list(out.iterdir())) == 8, f"report holds {sorted(os.listdir(out))} (7 + {MARKER})"
 
 
 def test_demo_file_is_the_documented_simulation(tmp_path):
@@ -611,3 +613,126 @@ def test_sigterm_during_the_run_leaves_nothing(tmp_path):
         f"SIGTERM left {sorted(p.name for p in tmp_path.iterdir())}")
     assert list(temporary.iterdir()) == [], (
         f"the chunk store was left in TMPDIR: {list(temporary.iterdir())}")
+
+
+# ------------------------------------------------- streaming: chunks, bounded work, SIGTERM
+
+
+def test_recut_gives_whole_chunks_whatever_the_blocks():
+    """Derived: blocks of 5, 1, 0 and 7 rows cut into chunks of 4 are rows 0-3, 4-7, 8-11, 12."""
+    rows = np.arange(13.0)
+    blocks = [{"observed": rows[a:b], "names": [f"G{i}" for i in range(a, b)]}
+              for a, b in ((0, 5), (5, 6), (6, 6), (6, 13))]
+    chunks = list(batch.recut(blocks, 4))
+    assert [list(c["observed"]) for c in chunks] == [[0, 1, 2, 3], [4, 5, 6, 7], [8, 9, 10, 11],
+                                                     [12]], f"chunks {chunks}"
+    assert chunks[1]["names"] == ["G4", "G5", "G6", "G7"], f"names {chunks[1]['names']}"
+
+
+def test_grouped_rows_give_the_same_per_locus_results(monkeypatch):
+    """Deterministic model: each row's results are elementwise (module docstring), so
+    working a chunk's rows one at a time (a large grid's guard for a prompt SIGTERM)
+    changes nothing; the summed surface agrees to rounding."""
+    data = demo.simulate(40, 5)
+    sigma = batch.mu_sigma_from_interval(data["mu_lower"], data["mu_upper"])
+    settings = batch.with_half_width(batch.BatchSettings(grid_points=120), sigma)
+    arrays = {"observed": data["observed"].astype(float), "sampled": data["sampled"].astype(float),
+              "mu": data["mu"], "mu_sigma": sigma}
+    whole = batch.run_chunk(("posterior", arrays, settings, batch.SHetPrior()))
+    surface = batch.run_chunk(("surface", arrays, settings, None))[0]
+    monkeypatch.setattr(batch, "WORK_PER_CALL", 1.0)
+    assert batch.rows_per_call(settings) == 1, "the guard should work one row a call"
+    grouped = batch.run_chunk(("posterior", arrays, settings, batch.SHetPrior()))
+    for name in whole:
+        np.testing.assert_array_equal(grouped[name], whole[name], err_msg=name)
+    np.testing.assert_allclose(batch.run_chunk(("surface", arrays, settings, None))[0], surface,
+                               rtol=1e-12, err_msg="surface summed in groups")
+
+
+def test_bounded_map_keeps_few_tasks_in_flight():
+    """Executor.map would submit all 50 tasks at once; at most `ahead` may be pending."""
+    from concurrent.futures import ThreadPoolExecutor
+
+    from infer.commands.batch import bounded_map
+
+    taken, most = [], [0]
+
+    def tasks():
+        for i in range(50):
+            taken.append(i)
+            yield i
+
+    with ThreadPoolExecutor(2) as pool:
+        results = []
+        for value in bounded_map(pool.submit, lambda x: x * x, tasks(), 3):
+            most[0] = max(most[0], len(taken) - len(results))
+            results.append(value)
+    assert results == [i * i for i in range(50)], "results out of order"
+    assert most[0] <= 3, f"{most[0]} tasks taken ahead of the results (bound 3)"
+
+
+def test_streamed_command_matches_the_in_memory_report(tmp_path, capsys, monkeypatch):
+    """qhat batch streams the file in blocks of 2 x 37 rows; loci.csv and summary.json's
+    numbers are those of analyse + write_batch_report on the whole table (chunk size 37)."""
+    from infer.commands import batch as command
+    from infer.files.loci import read_loci
+    from infer.jobs.batch.report import summarise_batch
+    from infer.reporting.batch_report import write_batch_report
+
+    source = _write_demo(tmp_path / "loci.csv", loci=200)
+    monkeypatch.setattr(command, "BLOCK_ROWS", 74)
+    for prior in ("log-uniform", "empirical"):
+        out = tmp_path / f"streamed-{prior}"
+        assert main(["batch", str(source), "--out", str(out), "--quiet", "--chunk-size", "37",
+                     "--prior", prior]) == 0, capsys.readouterr().err
+        table = read_loci(source)
+        sigma = batch.mu_sigma_from_interval(table.mu_lower, table.mu_upper, 0.95)
+        result = batch.analyse(table.observed, table.sampled, table.mu, sigma,
+                               batch.BatchSettings(), prior=prior, chunk_size=37)
+        report = summarise_batch(table, result, sigma, requested_prior=prior, mu_level=0.95,
+                                 chunk_size=37)
+        memory = write_batch_report(report, tmp_path / f"memory-{prior}")
+        assert (out / "loci.csv").read_bytes() == (memory / "loci.csv").read_bytes(), (
+            f"{prior}: streamed loci.csv differs from the in-memory one")
+        streamed = json.loads((out / "summary.json").read_text())
+        held = json.loads((memory / "summary.json").read_text())
+        for key in ("flags", "medians_across_loci", "log_marginal_likelihood", "input", "prior"):
+            assert streamed[key] == held[key], f"{prior}: summary.json {key} differs"
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("jobs", ["1", "2"])
+def test_sigterm_during_a_large_grid_is_prompt(tmp_path, jobs):
+    """A chunk of 512 loci on the largest grid --grid-points allows is many seconds of
+    numpy work (the cost grows as S squared); SIGTERM must end the run within 2 s, exit
+    130 (128 + SIGINT's 2, the shell convention for an interrupt: common practice) and
+    leave no folder behind."""
+    import signal
+    import subprocess
+    import sys
+    import time
+
+    from infer.commands.options import BATCH_MAX_GRID_POINTS
+
+    source = _write_demo(tmp_path / "loci.csv", loci=1024)
+    out = tmp_path / "out"
+    child = subprocess.Popen([sys.executable, "-m", "infer", "batch", str(source), "--out",
+                              str(out), "--quiet", "--grid-points", str(BATCH_MAX_GRID_POINTS),
+                              "--jobs", jobs],
+                             stderr=subprocess.PIPE, text=True, cwd=ROOT)
+    deadline = time.monotonic() + 30
+    while not [p for p in tmp_path.iterdir() if p.name.endswith(".partial")]:
+        assert time.monotonic() < deadline and child.poll() is None, "the run never started"
+        time.sleep(0.05)
+    time.sleep(1.0)
+    sent = time.monotonic()
+    child.send_signal(signal.SIGTERM)
+    status = child.wait(timeout=30)
+    waited = time.monotonic() - sent
+    err = child.stderr.read()
+    child.stderr.close()
+    assert waited < 2.0, f"SIGTERM took {waited:.1f} s to end the run (jobs {jobs})"
+    assert status == 130 and err.strip().splitlines() == [
+        "qhat: interrupted; nothing was written"], f"exit {status}, stderr {err!r}"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["loci.csv"], (
+        f"left behind: {sorted(p.name for p in tmp_path.iterdir())}")

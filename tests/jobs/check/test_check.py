@@ -541,7 +541,7 @@ def test_cli_consistent_out_folder_and_force(tmp_path):
     assert ran.returncode == 3, ran.stderr
     assert "ERROR" in ran.stdout, ran.stdout
     assert sorted(p.name for p in out.iterdir() if p.name != ".qhat-output") == [
-            "balance.png", "check.json", "report.md"], (
+            "balance.png", "check.json", "report.html", "report.md"], (
         f"report folder holds {sorted(p.name for p in out.iterdir())}")
     assert (out / "balance.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n", (
         "balance.png is not a PNG file")
