@@ -41,6 +41,7 @@ from typing import Any
 import numpy as np
 
 from infer.core.choices import INHERITANCES, MODELS
+from infer.core.supports import ASCERTAINMENT
 from infer.errors import InputError
 from infer.files.reading import invalid_toml, read_text
 from infer.model.balance_state import BalanceState
@@ -121,10 +122,30 @@ class Study:
     seed: int | None = None
     sampler: dict = field(default_factory=dict)
 
+    def __post_init__(self):
+        # each observation reads the study's penetrance, completeness and phenocopy
+        # unless its own table fixes them
+        fixed = {name: float(value.value) for name, value in self.parameters.items()
+                 if name in ASCERTAINMENT and isinstance(value, Fixed)}
+        free = [name for name in ASCERTAINMENT if isinstance(self.parameters.get(name), Prior)]
+        for observation in self.observations:
+            observation.bind_ascertainment(fixed, free)
+
     @property
     def free(self) -> list[str]:
         """Names of the parameters with a prior, in canonical order."""
         return [name for name in PARAMETERS if isinstance(self.parameters[name], Prior)]
+
+    @property
+    def reported_parameters(self) -> list[str]:
+        """The parameters a report lists, in canonical order.
+
+        Every balance parameter; an ascertainment parameter (penetrance, completeness,
+        phenocopy) only when the file gives it or an observation reads it.
+        """
+        read = {name for obs in self.observations for name in obs.ascertainment}
+        return [name for name in PARAMETERS if name not in ASCERTAINMENT
+                or name in read or name not in self.defaulted]
 
     @property
     def fixed(self) -> dict[str, float]:
@@ -362,6 +383,13 @@ def _parse_observations(tables: Any, inheritance: str) -> list[Observation]:
 def _check_observations_fit(observations, parameters, model) -> None:
     """Outside estimates must be of a parameter the model estimates."""
     for index, observation in enumerate(observations, start=1):
+        for name in sorted(observation.needs_free()):
+            if isinstance(parameters[name], Fixed):
+                raise InputError(
+                    f'{observation.kind} data inform {name}, which is fixed at '
+                    f'{parameters[name].value:g} in [parameters]; give {name} a prior '
+                    '(e.g. { prior = "beta", a = 2, b = 1 })',
+                    field=f"observations[{index}]")
         if not isinstance(observation, Estimate):
             continue
         where = f"observations[{index}].parameter"

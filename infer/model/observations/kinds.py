@@ -39,6 +39,7 @@ from typing import Any
 from infer.errors import InputError
 from infer.model.observations.base import Observation
 from infer.model.observations.fertility import Fertility
+from infer.model.observations.capture import CaptureRecapture
 from infer.model.observations.frequency import Affected, AlleleCount, GenotypeCount
 from infer.model.observations.published import Estimate
 from infer.model.observations.registry import Registry
@@ -56,6 +57,7 @@ KINDS: dict[str, type[Observation]] = {
         Affected,
         Sporadic,
         Registry,
+        CaptureRecapture,
         Fertility,
         Estimate,
     )
