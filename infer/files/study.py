@@ -286,7 +286,7 @@ def _parse(document: Any, source: str, require_free: bool) -> Study:
 
     parameters, defaulted = _parse_parameters(document.get("parameters", {}), model, inheritance)
     observations = _parse_observations(document.get("observations"), inheritance)
-    _check_observations_fit(observations, parameters, model)
+    _check_observations_fit(observations, parameters, model, require_free)
 
     free = [name for name in PARAMETERS if isinstance(parameters[name], Prior)]
     if require_free and not free:
@@ -380,10 +380,14 @@ def _parse_observations(tables: Any, inheritance: str) -> list[Observation]:
     return observations
 
 
-def _check_observations_fit(observations, parameters, model) -> None:
-    """Outside estimates must be of a parameter the model estimates."""
+def _check_observations_fit(observations, parameters, model, require_free=True) -> None:
+    """Outside estimates must be of a parameter the model estimates.
+
+    In a study (not a claim, whose parameters are all fixed) an observation that only
+    informs parameters must find them free.
+    """
     for index, observation in enumerate(observations, start=1):
-        for name in sorted(observation.needs_free()):
+        for name in sorted(observation.needs_free() if require_free else ()):
             if isinstance(parameters[name], Fixed):
                 raise InputError(
                     f'{observation.kind} data inform {name}, which is fixed at '
