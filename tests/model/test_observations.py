@@ -363,7 +363,7 @@ def test_parameters_used_and_describe():
     assert ac.label == "allele-count 1"
     assert ac.describe() == "allele-count 1: 1 of 10 allele copies carry the allele"
     assert set(KINDS) == {"allele-count", "genotype-count", "affected", "sporadic", "registry",
-                          "capture-recapture", "fertility", "estimate"}
+                          "capture-recapture", "carrier-mothers", "fertility", "estimate"}
     assert isinstance(ac, AlleleCount)
     for kind_table in (ac, spor):
         again = parse_observation(kind_table.as_table(), field="observations[1]",
@@ -401,7 +401,7 @@ BAD = [
     ("autosomal", {**AFF, "label": ""}, "observations[1].label", "is not a non-empty text"),
     ("autosomal", {"kind": "allele-counts", "observed": 1, "sampled": 2}, "observations[1].kind",
      "must be one of allele-count, genotype-count, affected, sporadic, registry, "
-     "capture-recapture, fertility, estimate"),
+     "capture-recapture, carrier-mothers, fertility, estimate"),
     ("autosomal", {"observed": 1, "sampled": 2}, "observations[1].kind", "missing"),
     ("autosomal", {"kind": "allele-count", "observed": 11, "sampled": 10},
      "observations[1].observed", "11 is more than sampled 10"),

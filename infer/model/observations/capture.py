@@ -100,7 +100,7 @@ class CaptureRecapture(Observation):
     def _draw_table_fields(self, state, rng):
         """New cells at the row's completeness, the split drawn from its prior."""
         c = float(np.ravel(self._completeness(state.params))[0])
-        p1, p2 = (float(v) for v in prior_split_draws(np.array([c]), rng))
+        p1, p2 = (float(v[0]) for v in prior_split_draws(np.array([c]), rng))
         cells = np.array([p1 * (1 - p2), (1 - p1) * p2, p1 * p2]) / c
         first, second, both = (int(v) for v in rng.multinomial(self.found, cells / cells.sum()))
         return {"first_only": first, "second_only": second, "both": both}

@@ -124,7 +124,9 @@ class Fertility(Observation):
 
     def share(self, params) -> np.ndarray:
         """A·w / (A·w + R): the chance that a child has an affected parent."""
-        aw = self.affected_people * np.clip(self.relative_fitness(params), 0.0, None)
+        w = self.relative_fitness(params)
+        # w < 0 (the genotype's selection above the penetrance) has no probability
+        aw = self.affected_people * np.where(w >= 0, w, np.nan)
         return aw / (aw + self.reference_people)
 
     def _log_likelihood(self, state):
@@ -151,7 +153,7 @@ class Fertility(Observation):
 
         Not the conditional binomial: the total T varies too, as in a new study.
         """
-        w = self.relative_fitness(state.params)
+        w = np.clip(self.relative_fitness(state.params), 0.0, None)
         baseline = self.reference_children / self.reference_people
         affected_children = rng.poisson(self.affected_people * w * baseline)
         reference_children = rng.poisson(self.reference_people * baseline)
