@@ -40,7 +40,8 @@ CITATION = re.compile(r"docs/([A-Za-z0-9_./-]+\.md)(?:,\s*'([^']+)')?")
 #: a Markdown link to a relative target inside docs/
 LINK = re.compile(r"\]\(([^)\s#]*)(#[^)\s]*)?\)")
 #: the life-cycle parameters (infer.core.supports.PARAMETERS), the placeholder <name>
-PARAMETERS = ("mu", "s", "h", "F", "nu", "Ne", "alpha")
+PARAMETERS = ("mu", "s", "h", "F", "nu", "Ne", "alpha", "penetrance", "completeness",
+              "phenocopy")
 #: summary.json keys whose children are parameter names
 BY_PARAMETER = {("parameters",), ("diagnostics", "autocorr_time"), ("grid", "quantiles"),
                 ("grid", "parameters"), ("drift_comparison", "deterministic"),

@@ -1,7 +1,9 @@
 """The life-cycle parameters, their supports, and maps from an interval to the real line.
 
 Supports (:data:`SUPPORT`, ends included as in :data:`CLOSED_ENDS`): mu (0, 1),
-s (0, 1], h [0, 1], F [0, 1), nu [0, 1), Ne (0, inf), alpha (0, inf).
+s (0, 1], h [0, 1], F [0, 1), nu [0, 1), Ne (0, inf), alpha (0, inf), and the
+ascertainment parameters (:data:`ASCERTAINMENT`) penetrance (0, 1], completeness (0, 1],
+phenocopy [0, 1).
 
 :func:`logit_to` and :func:`logit_from` map an interval to the whole real line and
 back (the sampling coordinates of :mod:`infer.model.priors.families`).
@@ -18,6 +20,8 @@ from infer.validate import format_number
 
 __all__ = [
     "PARAMETERS",
+    "BALANCE_PARAMETERS",
+    "ASCERTAINMENT",
     "SUPPORT",
     "CLOSED_ENDS",
     "in_support",
@@ -27,7 +31,13 @@ __all__ = [
 ]
 
 #: every life-cycle parameter, in the canonical order used in reports and arrays
-PARAMETERS: tuple[str, ...] = ("mu", "s", "h", "F", "nu", "Ne", "alpha")
+BALANCE_PARAMETERS: tuple[str, ...] = ("mu", "s", "h", "F", "nu", "Ne", "alpha")
+#: how affected births are seen, with the value that means "as the genotype says": the
+#: probability that a carrier of the affected genotype is affected (penetrance), that an
+#: affected birth is registered (completeness), and the rate per birth of affected births
+#: that carry no germ-line mutation (phenocopy: non-heritable cases)
+ASCERTAINMENT: dict[str, float] = {"penetrance": 1.0, "completeness": 1.0, "phenocopy": 0.0}
+PARAMETERS: tuple[str, ...] = (*BALANCE_PARAMETERS, *ASCERTAINMENT)
 
 #: support of each parameter (lower, upper); which ends are included is in CLOSED_ENDS
 SUPPORT: dict[str, tuple[float, float]] = {
@@ -38,6 +48,9 @@ SUPPORT: dict[str, tuple[float, float]] = {
     "nu": (0.0, 1.0),
     "Ne": (0.0, math.inf),
     "alpha": (0.0, math.inf),
+    "penetrance": (0.0, 1.0),
+    "completeness": (0.0, 1.0),
+    "phenocopy": (0.0, 1.0),
 }
 #: whether each end of a parameter's support (lower, upper) belongs to it
 CLOSED_ENDS: dict[str, tuple[bool, bool]] = {
@@ -48,6 +61,9 @@ CLOSED_ENDS: dict[str, tuple[bool, bool]] = {
     "nu": (True, False),
     "Ne": (False, False),
     "alpha": (False, False),
+    "penetrance": (False, True),
+    "completeness": (False, True),
+    "phenocopy": (True, False),
 }
 
 

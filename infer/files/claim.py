@@ -81,6 +81,7 @@ __all__ = [
     "APPROXIMATIONS",
     "MU_SCALES",
     "WIDE_PRIORS",
+    "OTHER_WIDE_PRIORS",
     "DEFAULT_SEED",
     "DEFAULT_TOLERANCE",
 ]
@@ -111,6 +112,14 @@ WIDE_PRIORS = {
     "mu": LogUniform("mu", 1e-12, 0.1),
     "s": Uniform("s", 0.0, 1.0),
     "h": Uniform("h", 0.0, 1.0),
+}
+#: wide priors of the other parameters whose implied intervals a check gives
+#: (``infer.jobs.check.intervals``); the claim is not validated against them
+OTHER_WIDE_PRIORS = {
+    "alpha": LogUniform("alpha", 0.01, 100.0),
+    "penetrance": Uniform("penetrance", 0.0, 1.0),
+    "completeness": Uniform("completeness", 0.0, 1.0),
+    "phenocopy": LogUniform("phenocopy", 1e-10, 0.01),
 }
 DEFAULT_SEED = 1
 DEFAULT_TOLERANCE = 0.2

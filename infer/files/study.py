@@ -41,6 +41,7 @@ from typing import Any
 import numpy as np
 
 from infer.core.choices import INHERITANCES, MODELS
+from infer.core.supports import ASCERTAINMENT
 from infer.core.x_linked import germ_line_rate_problem
 from infer.errors import InputError
 from infer.files.reading import invalid_toml, read_text
@@ -138,10 +139,30 @@ class Study:
     seed: int | None = None
     sampler: dict = field(default_factory=dict)
 
+    def __post_init__(self):
+        # each observation reads the study's penetrance, completeness and phenocopy
+        # unless its own table fixes them
+        fixed = {name: float(value.value) for name, value in self.parameters.items()
+                 if name in ASCERTAINMENT and isinstance(value, Fixed)}
+        free = [name for name in ASCERTAINMENT if isinstance(self.parameters.get(name), Prior)]
+        for observation in self.observations:
+            observation.bind_ascertainment(fixed, free)
+
     @property
     def free(self) -> list[str]:
         """Names of the parameters with a prior, in canonical order."""
         return [name for name in PARAMETERS if isinstance(self.parameters[name], Prior)]
+
+    @property
+    def reported_parameters(self) -> list[str]:
+        """The parameters a report lists, in canonical order.
+
+        Every balance parameter; an ascertainment parameter (penetrance, completeness,
+        phenocopy) only when the file gives it or an observation reads it.
+        """
+        read = {name for obs in self.observations for name in obs.ascertainment}
+        return [name for name in PARAMETERS if name not in ASCERTAINMENT
+                or name in read or name not in self.defaulted]
 
     @property
     def fixed(self) -> dict[str, float]:
@@ -282,7 +303,7 @@ def _parse(document: Any, source: str, require_free: bool) -> Study:
 
     parameters, defaulted = _parse_parameters(document.get("parameters", {}), model, inheritance)
     observations = _parse_observations(document.get("observations"), inheritance)
-    _check_observations_fit(observations, parameters, model)
+    _check_observations_fit(observations, parameters, model, require_free)
 
     free = [name for name in PARAMETERS if isinstance(parameters[name], Prior)]
     if require_free and not free:
@@ -388,9 +409,20 @@ def _parse_observations(tables: Any, inheritance: str) -> list[Observation]:
     return observations
 
 
-def _check_observations_fit(observations, parameters, model) -> None:
-    """Outside estimates must be of a parameter the model estimates."""
+def _check_observations_fit(observations, parameters, model, require_free=True) -> None:
+    """Outside estimates must be of a parameter the model estimates.
+
+    In a study (not a claim, whose parameters are all fixed) an observation that only
+    informs parameters must find them free.
+    """
     for index, observation in enumerate(observations, start=1):
+        for name in sorted(observation.needs_free() if require_free else ()):
+            if isinstance(parameters[name], Fixed):
+                raise InputError(
+                    f'{observation.kind} data inform {name}, which is fixed at '
+                    f'{parameters[name].value:g} in [parameters]; give {name} a prior '
+                    '(e.g. { prior = "beta", a = 2, b = 1 })',
+                    field=f"observations[{index}]")
         if not isinstance(observation, Estimate):
             continue
         where = f"observations[{index}].parameter"

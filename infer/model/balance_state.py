@@ -13,10 +13,11 @@ from typing import Any
 import numpy as np
 
 from infer.core.choices import INHERITANCES
+from infer.core.supports import ASCERTAINMENT, BALANCE_PARAMETERS
 
 __all__ = ["BalanceState", "broadcast_params", "INHERITANCES"]
 
-_NAMES = ("mu", "s", "h", "F", "nu", "Ne", "alpha")
+_NAMES = (*BALANCE_PARAMETERS, *ASCERTAINMENT)
 
 
 def broadcast_params(params: dict) -> dict[str, np.ndarray]:
@@ -26,16 +27,19 @@ def broadcast_params(params: dict) -> dict[str, np.ndarray]:
     ----------
     params : dict
         Maps each of mu, s, h, F, nu, Ne, alpha to a scalar or array; scalars
-        (fixed parameters) are broadcast to the rows of the arrays.
+        (fixed parameters) are broadcast to the rows of the arrays. The ascertainment
+        parameters (penetrance, completeness, phenocopy) take their neutral values
+        (1, 1, 0) when absent.
 
     Raises
     ------
     KeyError
         When a life-cycle parameter is missing.
     """
-    missing = [name for name in _NAMES if name not in params]
+    missing = [name for name in BALANCE_PARAMETERS if name not in params]
     if missing:
         raise KeyError(f"parameters missing from the state: {', '.join(missing)}")
+    params = {**ASCERTAINMENT, **params}
     arrays = {name: np.asarray(params[name], dtype=float) for name in _NAMES}
     shapes = {a.shape for a in arrays.values()}
     if len(shapes) == 1 and len(next(iter(shapes))) == 1:

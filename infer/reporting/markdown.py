@@ -233,9 +233,10 @@ def terminal_summary(result, out_path) -> str:
     s = result.summary
     pct = fmt_level(s["interval"], space="")
     lines = [f"{result.study.title}"]
+    width = max([6, *(len(name) for name in result.free)])
     for name in result.free:
         p = s["parameters"][name]
-        lines.append(f"  {name:<6} {fmt(p['median']):>10}  {pct} {fmt(p['lower'])} – "
+        lines.append(f"  {name:<{width}} {fmt(p['median']):>10}  {pct} {fmt(p['lower'])} – "
                      f"{fmt(p['upper'])}  contraction {fmt_contraction(p['contraction'])}")
     d = s.get("drift_frequency")
     q = s["derived"].get("q_hat")
@@ -249,7 +250,7 @@ def terminal_summary(result, out_path) -> str:
     elif q:
         sons = s["derived"].get("q_male")  # X-linked: the frequency the data see
         name, q = ("q_male", sons) if sons else ("q_hat", q)
-        lines.append(f"  {name:<6} {fmt(q['median']):>10}  {pct} {fmt(q['lower'])} – "
+        lines.append(f"  {name:<{width}} {fmt(q['median']):>10}  {pct} {fmt(q['lower'])} – "
                      f"{fmt(q['upper'])}" + ("  (in newborn sons)" if sons else ""))
     d = s["diagnostics"]
     lines.append("  converged" if d["converged"] else "  NOT CONVERGED: " + " ".join(d["messages"]))

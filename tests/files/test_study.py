@@ -100,8 +100,9 @@ def test_good_study_parses_with_defaults(tmp_path):
     for name, prior in expected.items():
         assert study.parameters[name] == prior, (
             f"parameters.{name} read as {study.parameters[name]!r}; the file says {prior!r}")
-    assert study.defaulted == {"F", "nu", "Ne", "alpha"}, (
-        f"the parameters the file leaves out are F, nu, Ne, alpha; defaulted = {study.defaulted}")
+    left_out = {"F", "nu", "Ne", "alpha", "penetrance", "completeness", "phenocopy"}
+    assert study.defaulted == left_out, (
+        f"the parameters the file leaves out are {left_out}; defaulted = {study.defaulted}")
     assert study.free == ["mu", "s"], f"mu and s have priors, h is fixed; free = {study.free}"
     assert study.fixed["h"] == 1.0, f"h = 1.0 in the file; fixed h = {study.fixed['h']}"
     assert study.seed == 3 and study.sampler == {"seed": 3, "walkers": 16}, (

@@ -363,7 +363,7 @@ def test_parameters_used_and_describe():
     assert ac.label == "allele-count 1"
     assert ac.describe() == "allele-count 1: 1 of 10 allele copies carry the allele"
     assert set(KINDS) == {"allele-count", "genotype-count", "affected", "sporadic", "registry",
-                          "fertility", "estimate"}
+                          "capture-recapture", "carrier-mothers", "fertility", "estimate"}
     assert isinstance(ac, AlleleCount)
     for kind_table in (ac, spor):
         again = parse_observation(kind_table.as_table(), field="observations[1]",
@@ -400,8 +400,8 @@ BAD = [
      'unknown key "affectd"; must be one of affected, total, mode, kind, label, penetrance'),
     ("autosomal", {**AFF, "label": ""}, "observations[1].label", "is not a non-empty text"),
     ("autosomal", {"kind": "allele-counts", "observed": 1, "sampled": 2}, "observations[1].kind",
-     "must be one of allele-count, genotype-count, affected, sporadic, registry, fertility, "
-     "estimate"),
+     "must be one of allele-count, genotype-count, affected, sporadic, registry, "
+     "capture-recapture, carrier-mothers, fertility, estimate"),
     ("autosomal", {"observed": 1, "sampled": 2}, "observations[1].kind", "missing"),
     ("autosomal", {"kind": "allele-count", "observed": 11, "sampled": 10},
      "observations[1].observed", "11 is more than sampled 10"),
@@ -423,8 +423,10 @@ BAD = [
      "observations[1].affected_people", "0 is not at least 1"),
     ("autosomal", {**FERTILITY, "mode": "x-linked-male"}, "observations[1].mode",
      'needs inheritance = "x-linked"'),
+    ("autosomal", {"kind": "estimate", "parameter": "k", "median": 0.3, "lower": 0.2,
+                   "upper": 0.4}, "observations[1].parameter", "must be one of mu, s, h, F"),
     ("autosomal", {"kind": "estimate", "parameter": "h", "median": 0.3, "lower": 0.2,
-                   "upper": 0.4}, "observations[1].parameter", "must be one of mu, s, Ne"),
+                   "upper": 1.0}, "observations[1].upper", "read on the logit scale"),
     ("autosomal", {"kind": "estimate", "parameter": "mu", "median": 1e-5, "lower": 2e-5,
                    "upper": 4e-5}, "observations[1].median", "1e-05 is not above lower 2e-05"),
     ("autosomal", {"kind": "estimate", "parameter": "mu", "median": 1e-5, "lower": 0.0,

@@ -464,7 +464,10 @@ def test_fertility_declares_its_assumption_for_the_report():
     assert assumption and "fertility alone" in assumption, (
         "docs/files.md, 'fertility': a fertility datum assumes selection acts through fertility "
         "alone, and the report must say so")
-    assert all(KINDS[k].assumption is None for k in KINDS if k != "fertility")
+    # capture-recapture states the independence of its two sources
+    assert "independently" in KINDS["capture-recapture"].assumption
+    assert all(KINDS[k].assumption is None for k in KINDS
+               if k not in ("fertility", "capture-recapture"))
 
 
 def test_tile_repeats_rows_like_numpy():

@@ -1,9 +1,10 @@
-"""Intervals of mu, s and h implied by the reported data, against the claimed values.
+"""Intervals of the claim's parameters implied by the reported data, against its values.
 
-Each parameter in turn gets the exact grid posterior under a wide prior
-(``infer.files.claim.WIDE_PRIORS``) with the others held at their claimed values; the
-claimed value is judged by its evidence value (Pereira & Stern 1999) and the
-highest-density interval.
+Each parameter in turn -- mu, s and h; alpha at an X-linked locus; penetrance,
+completeness and phenocopy where the claim states them and an observation reads them --
+gets the exact posterior under a wide prior (``infer.files.claim.WIDE_PRIORS``) with the
+others held at their claimed values; the claimed value is judged by its evidence value
+(Pereira & Stern 1999) and the highest-density interval.
 """
 
 from __future__ import annotations
@@ -15,8 +16,9 @@ import numpy as np
 
 from infer.jobs.check.findings import Finding, claimed_text
 from infer.core.text import fmt
-from infer.files.claim import WIDE_PRIORS, Claim
-from infer.model.priors.parsing import SUPPORT
+from infer.core.supports import ASCERTAINMENT
+from infer.files.claim import OTHER_WIDE_PRIORS, REQUIRED_PARAMETERS, WIDE_PRIORS, Claim
+from infer.model.priors.parsing import SUPPORT, LogUniform
 
 __all__ = ["implied_intervals"]
 
@@ -31,7 +33,7 @@ def _evidence(grid, name: str, claimed: float, level: float) -> tuple[float, tup
     """
     x = np.asarray(grid.axes[name], dtype=float)
     density = np.asarray(grid.marginal_density[name], dtype=float)
-    log_scale = name == "mu"
+    log_scale = isinstance(_PRIORS.get(name), LogUniform)
     u = np.log10(x) if log_scale else x
     density_u = density * x * math.log(10) if log_scale else density
     mass = np.concatenate([[0.0], (density[1:] + density[:-1]) / 2 * np.diff(x)])
@@ -56,8 +58,46 @@ def _evidence(grid, name: str, claimed: float, level: float) -> tuple[float, tup
     return evidence, (lower, upper)
 
 
+_PRIORS = {**WIDE_PRIORS, **OTHER_WIDE_PRIORS}
+
+
+#: an implied interval spanning more than this share of the prior's central range (on the
+#: prior's scale) says the data barely inform the parameter
+BARELY_INFORMED = 0.9
+
+
+def _prior_share(prior, lower: float, upper: float, level: float) -> float:
+    """Width of [lower, upper] over the prior's central ``level`` range (log10 if log-uniform)."""
+    tails = np.array([(1 - level) / 2, (1 + level) / 2])
+    plo, phi = (float(v) for v in prior.quantile(tails))
+    if isinstance(prior, LogUniform):
+        lower, upper = math.log10(max(lower, 1e-300)), math.log10(max(upper, 1e-300))
+        plo, phi = math.log10(plo), math.log10(phi)
+    return float((upper - lower) / (phi - plo)) if phi > plo else 0.0
+
+
+def checked_parameters(claim: Claim) -> list[str]:
+    """The parameters whose implied intervals are computed, in canonical order.
+
+    mu, s and h always; alpha at an X-linked locus; an ascertainment parameter when the
+    claim states it (not left to its default).
+    """
+    study = claim.study
+    names = list(REQUIRED_PARAMETERS)
+    if study.inheritance == "x-linked":
+        names.append("alpha")
+    names += [n for n in ASCERTAINMENT if n in _PRIORS and n not in study.defaulted]
+    return names
+
+
+def _reads(observation, name: str, model: str) -> bool:
+    if name in ASCERTAINMENT:
+        return name in observation.ascertainment and getattr(observation, name, None) is None
+    return name in observation.parameters_used(model)
+
+
 def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Finding]]:
-    """Interval of mu, s and h implied by the data, the others held at their claimed values.
+    """Interval of each parameter implied by the data, the others at their claimed values.
 
     Parameters
     ----------
@@ -77,10 +117,11 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
 
     study, level, model = claim.study, claim.study.interval, claim.study.model
     out, findings = {}, []
-    for name in ("mu", "s", "h"):
-        others = claimed_text(claim, [n for n in ("mu", "s", "h") if n != name])
-        used = [o for o in study.observations if name in o.parameters_used(model)]
-        prior = WIDE_PRIORS[name]
+    names = checked_parameters(claim)
+    for name in names:
+        others = claimed_text(claim, [n for n in names if n != name])
+        used = [o for o in study.observations if _reads(o, name, model)]
+        prior = _PRIORS[name]
         if not used:
             out[name] = {"informed": False}
             continue
@@ -110,6 +151,15 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
                 f"{fmt(hpd_upper)}, prior {prior.describe()})")
         evidence_text = ("posterior mass no more probable than the claimed value "
                          f"{fmt(claimed)}: {fmt(evidence)}")
+        share = _prior_share(prior, hpd_lower, hpd_upper, level)
+        record["prior_share"] = share
+        if evidence >= 1.0 - level and share > BARELY_INFORMED:
+            findings.append(Finding(
+                "note", "implied-interval-uninformed",
+                f"{text}: the data barely inform {name} (the interval spans "
+                f"{100 * share:.0f} % of the prior's {pct} range), so the claimed "
+                f"{fmt(claimed)} is neither supported nor contradicted by them.", record))
+            continue
         if evidence >= 1.0 - level:
             findings.append(Finding("note", "implied-interval",
                                     f"{text}; the claimed {fmt(claimed)} lies inside it.", record))

@@ -60,10 +60,16 @@ def direct_estimate(cases: float, exposure: float, mode: str, alpha=1.0):
     return rate * (2.0 + np.asarray(alpha, dtype=float)) / 3.0
 
 
-def indirect_estimate(f, incidence, mode: str):
-    """Haldane's indirect method: mu = (1 − f)·x / 2 (dominant) or / 3 (x-linked-male)."""
+def indirect_estimate(f, incidence, mode: str, penetrance: float = 1.0):
+    """Haldane's indirect method: mu = P·(1 − f)·x / 2 (dominant) or / 3 (x-linked-male).
+
+    x the genotype's incidence, f the affected people's relative fertility and P their
+    penetrance: non-penetrant carriers are not selected, so the genotype loses P·(1 − f)
+    (P = 1 is the textbook formula).
+    """
     divisor = 2.0 if mode == "dominant" else 3.0
-    return (1.0 - np.asarray(f, dtype=float)) * np.asarray(incidence, dtype=float) / divisor
+    return (penetrance * (1.0 - np.asarray(f, dtype=float))
+            * np.asarray(incidence, dtype=float) / divisor)
 
 
 def _number(value) -> float | None:
@@ -142,11 +148,12 @@ def direct_indirect(counts: ClassicCounts, alpha, rng: np.random.Generator,
     theta = rng.beta(c.affected_children + 0.5, c.reference_children + 0.5, size=draws)
     # X ~ Binomial(T, A w / (A w + R)) gives w = theta R / ((1 - theta) A)
     f = theta / (1.0 - theta) * c.reference_people / c.affected_people
-    indirect = indirect_estimate(f, incidence, c.mode)
+    indirect = indirect_estimate(f, incidence, c.mode, c.fertility_penetrance)
     f_point = observed_relative_fertility(c.affected_people, c.affected_children,
                                           c.reference_people, c.reference_children)
     incidence_point = c.affected / c.affected_exposure
-    indirect_point = indirect_estimate(f_point, incidence_point, c.mode)
+    indirect_point = indirect_estimate(f_point, incidence_point, c.mode,
+                                        c.fertility_penetrance)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio_point = indirect_point / direct_point if direct_point > 0 else math.inf
     ratio = _interval(indirect / direct, interval)

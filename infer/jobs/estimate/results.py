@@ -479,7 +479,8 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
             "location": location(p.sampling_scale(posterior[name]),
                                  p.sampling_scale(prior[name]), interval),
         }
-    for name, p in study.parameters.items():
+    for name in study.reported_parameters:
+        p = study.parameters[name]
         if isinstance(p, Fixed):
             v = float(p.value)
             parameters[name] = {

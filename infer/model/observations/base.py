@@ -30,16 +30,21 @@ from scipy import special
 
 from infer.core.choices import AUTOSOMAL_MODES, MODES, X_LINKED_MODES
 from infer.core.stats import log_binomial
+from infer.core.supports import ASCERTAINMENT
 from infer.errors import InputError
 from infer.model.balance_state import BalanceState
 from infer.model.observations.share import FrequencyStatistic
-from infer.validate import check_keys, choice, quote_value
+from infer.validate import check_keys, choice, format_number, probability, quote_value
 
 __all__ = [
     "Observation",
     "PROTOCOL",
     "FREQUENCY_PROTOCOL",
     "FREQUENCY_PARAMETERS",
+    "parse_ascertainment",
+    "free_ascertainment",
+    "seen_share",
+    "ascertainment_text",
     "log_binomial",
     "binomial_draw",
     "x_linked_daughter_genotypes",
@@ -115,6 +120,9 @@ class Observation:
     optional: ClassVar[tuple[str, ...]] = ()
     #: a sentence an estimate report adds to its assumptions when the study has this kind
     assumption: ClassVar[str | None] = None
+    #: ascertainment parameters (``infer.core.supports.ASCERTAINMENT``) this kind reads;
+    #: its table may fix each for this observation alone (a field of the same name)
+    ascertainment: ClassVar[tuple[str, ...]] = ()
 
     label: str
     inheritance: str
@@ -145,6 +153,36 @@ class Observation:
     def _parse(cls, table: dict, field: str, inheritance: str) -> dict:
         """Validated dataclass fields from the table (raise InputError naming the field)."""
         raise NotImplementedError
+
+    # -- ascertainment ------------------------------------------------------
+    def bind_ascertainment(self, fixed: dict, free=()) -> None:
+        """Remember the study's ascertainment parameters (``Study`` calls this).
+
+        ``fixed`` maps names to the study's fixed values, ``free`` names those that carry
+        a prior. An ascertainment parameter this observation does not fix itself then
+        reads as the study's in :meth:`ascertained` and in reports.
+        """
+        object.__setattr__(self, "_study_fixed", dict(fixed))
+        object.__setattr__(self, "_study_free", tuple(free))
+
+    def ascertained(self, name: str, params: dict | None = None):
+        """The value of ascertainment parameter ``name`` this observation sees.
+
+        Its own field when the table gives one, else the study's fixed value, else the
+        row values ``params[name]`` (the parameter carries a prior; ``None`` without
+        ``params``), else the neutral value of ``ASCERTAINMENT``.
+        """
+        own = getattr(self, name, None)
+        if own is not None:
+            return own
+        fixed = getattr(self, "_study_fixed", {})
+        if name in fixed:
+            return fixed[name]
+        if params is not None and name in params:
+            return np.asarray(params[name], dtype=float)
+        if name in getattr(self, "_study_free", ()):
+            return None
+        return ASCERTAINMENT[name]
 
     # -- likelihood ---------------------------------------------------------
     def log_likelihood(self, state: BalanceState) -> np.ndarray:
@@ -292,6 +330,10 @@ class Observation:
                 table[name] = value
         return table
 
+    def needs_free(self) -> set[str]:
+        """Parameters that must carry a prior for this observation to inform anything."""
+        return set()
+
     def parameters_used(self, model: str = "deterministic") -> set[str]:
         """Life-cycle parameters the likelihood depends on."""
         used = set(FREQUENCY_PARAMETERS)
@@ -300,6 +342,61 @@ class Observation:
         if model == "drift":
             used.add("Ne")
         return used
+
+
+def seen_share(genetic_share, observation, params):
+    """The share of births counted as affected: completeness × (genetic + phenocopy).
+
+    ``genetic_share`` already carries the penetrance; phenocopies (affected births
+    without a germ-line mutation, a rate per birth) are counted like any affected birth
+    and registered with the same completeness. Capped at 1.
+    """
+    completeness = observation.ascertained("completeness", params)
+    phenocopy = observation.ascertained("phenocopy", params)
+    return np.clip(completeness * (np.asarray(genetic_share, dtype=float) + phenocopy),
+                   0.0, 1.0)
+
+
+def ascertainment_text(observation) -> str:
+    """``, penetrance 0.8, completeness 0.9`` for the values that are not neutral."""
+    parts = []
+    for name, neutral in (("penetrance", 1.0), ("completeness", 1.0), ("phenocopy", 0.0)):
+        if name not in observation.ascertainment:
+            continue
+        value = observation.ascertained(name)
+        if value is None:
+            parts.append(f"{name} from its prior")
+        elif value != neutral:
+            parts.append(f"{name} {format_number(value)}")
+    return "".join(f", {part}" for part in parts)
+
+
+def free_ascertainment(observation) -> set[str]:
+    """The ascertainment parameters an observation reads from the study's priors."""
+    return {name for name in observation.ascertainment
+            if observation.ascertained(name) is None}
+
+
+def parse_ascertainment(table: dict, field: str, names, cases: int) -> dict:
+    """The observation's own fixed ascertainment values (absent keys give ``None``).
+
+    Each is a probability; penetrance or completeness 0 is refused when there are
+    ``cases`` (they could not have been seen).
+    """
+    values = {}
+    for name in names:
+        if name not in table:
+            values[name] = None
+            continue
+        value = probability(table[name], f"{field}.{name}")
+        if name in ("penetrance", "completeness") and value == 0 and cases > 0:
+            raise InputError("0 cannot produce the affected births counted",
+                             field=f"{field}.{name}")
+        if name == "phenocopy" and value == 1:
+            raise InputError("1 is not below 1: every birth would be affected",
+                             field=f"{field}.{name}")
+        values[name] = value
+    return values
 
 
 def check_not_above(value: int, limit: int, limit_name: str, field: str) -> None:

@@ -29,11 +29,11 @@ class ClassicCounts:
     cases, case_births : int
         New-mutation cases and the births they were counted in.
     case_exposure : float
-        Sum of births × penetrance over the new-mutation observations.
+        Sum of births × penetrance × completeness over the new-mutation observations.
     affected, affected_births : int
         Affected births and the births they were counted in.
     affected_exposure : float
-        Sum of births × penetrance over the affected-birth observations.
+        Sum of births × penetrance × completeness over the affected-birth observations.
     affected_people, affected_children, reference_people, reference_children : int
         The fertility counts, summed over the fertility observations of the mode.
     case_labels, affected_labels, fertility_labels : tuple of str
@@ -43,6 +43,8 @@ class ClassicCounts:
         observations, so the cases are a subset of the affected births.
     known_status : int
         Affected births whose parents' status is known (nested only; else 0).
+    fertility_penetrance : float
+        The penetrance the fertility observations read (one value).
     """
 
     mode: str
@@ -61,6 +63,7 @@ class ClassicCounts:
     fertility_labels: tuple[str, ...]
     nested: bool = False
     known_status: int = 0
+    fertility_penetrance: float = 1.0
 
 
 def classic_counts(observations) -> ClassicCounts | None:
@@ -80,16 +83,20 @@ def classic_counts(observations) -> ClassicCounts | None:
         fertility = [o for o in observations if isinstance(o, Fertility) and o.mode == mode]
         if not (cases and affected and fertility):
             continue
+        seen = _seen_factors([*cases, *affected])
+        fertility_penetrance = {o.ascertained("penetrance") for o in fertility}
+        if seen is None or len(fertility_penetrance) != 1 or None in fertility_penetrance:
+            return None  # the classic formulas need fixed, known ascertainment
         nested = (all(isinstance(o, Registry) for o in cases)
                   and {id(o) for o in cases} == {id(o) for o in affected})
         return ClassicCounts(
             mode=mode,
             cases=sum(o.sporadic if isinstance(o, Registry) else o.cases for o in cases),
             case_births=sum(o.births for o in cases),
-            case_exposure=float(sum(o.births * o.penetrance for o in cases)),
+            case_exposure=float(sum(o.births * seen[id(o)] for o in cases)),
             affected=sum(o.affected for o in affected),
             affected_births=sum(_births(o) for o in affected),
-            affected_exposure=float(sum(_births(o) * o.penetrance for o in affected)),
+            affected_exposure=float(sum(_births(o) * seen[id(o)] for o in affected)),
             affected_people=sum(o.affected_people for o in fertility),
             affected_children=sum(o.affected_children for o in fertility),
             reference_people=sum(o.reference_people for o in fertility),
@@ -99,8 +106,23 @@ def classic_counts(observations) -> ClassicCounts | None:
             fertility_labels=tuple(o.label for o in fertility),
             nested=nested,
             known_status=sum(o.affected - o.unknown for o in cases) if nested else 0,
+            fertility_penetrance=float(fertility_penetrance.pop()),
         )
     return None
+
+
+def _seen_factors(observations) -> dict | None:
+    """Penetrance × completeness of each observation; None when one is free or phenocopies.
+
+    The classic direct and indirect formulas count every affected birth as genetic.
+    """
+    factors = {}
+    for o in observations:
+        penetrance, completeness = o.ascertained("penetrance"), o.ascertained("completeness")
+        if penetrance is None or completeness is None or o.ascertained("phenocopy") != 0:
+            return None
+        factors[id(o)] = float(penetrance) * float(completeness)
+    return factors
 
 
 def _births(observation) -> int:

@@ -14,8 +14,11 @@ import numpy as np
 from infer.core.stats import log_binomial
 from infer.model.observations.base import (
     Observation,
+    ascertainment_text,
     at_least_one,
     binomial_draw,
+    free_ascertainment,
+    parse_ascertainment,
     parse_mode,
 )
 from infer.validate import whole_count
@@ -43,8 +46,13 @@ class Fertility(Observation):
     X ~ Poisson(A·w·λ) children and the ``R`` reference people Y ~ Poisson(R·λ),
     independently, with λ the unknown baseline fertility.  Given the total
     T = X + Y, X ~ Binomial(T, A·w / (A·w + R)), which no longer involves λ.  The
-    relative fitness is w = 1 − h·s (dominant) or 1 − s (recessive, x-linked-male);
-    this assumes selection acts through fertility alone.
+    genotype's relative fitness is 1 − h·s (dominant) or 1 − s (recessive,
+    x-linked-male); this assumes selection acts through fertility alone.
+
+    With penetrance P < 1 only the affected carriers are selected (non-penetrant
+    carriers have normal fertility, an assumption): the genotype's loss is P times the
+    affected people's, so affected people have w = 1 − h·s / P (dominant) or 1 − s / P,
+    and a genotype's selection above P is impossible (w < 0 has no probability).
     """
 
     kind: ClassVar[str] = "fertility"
@@ -57,12 +65,15 @@ class Fertility(Observation):
     required: ClassVar[tuple[str, ...]] = (
         "affected_people", "affected_children", "reference_people", "reference_children", "mode",
     )
+    ascertainment: ClassVar[tuple[str, ...]] = ("penetrance",)
+    optional: ClassVar[tuple[str, ...]] = ascertainment
 
     affected_people: int = 1
     affected_children: int = 0
     reference_people: int = 1
     reference_children: int = 0
     mode: str = "dominant"
+    penetrance: float | None = None
 
     @classmethod
     def _parse(cls, table, field, inheritance):
@@ -70,14 +81,18 @@ class Fertility(Observation):
         at_least_one(values["affected_people"], f"{field}.affected_people")
         at_least_one(values["reference_people"], f"{field}.reference_people")
         values["mode"] = parse_mode(table, field, inheritance)
-        return values
+        return {**values, **parse_ascertainment(table, field, cls.ascertainment,
+                                                values["affected_people"])}
 
     def relative_fitness(self, params) -> np.ndarray:
-        """Relative fitness w per row: 1 − h·s (dominant), 1 − s (recessive, x-linked-male)."""
+        """Affected people's relative fitness w per row: 1 − h·s / P (dominant), 1 − s / P.
+
+        P the penetrance (1: every carrier affected, w the genotype's 1 − h·s or 1 − s).
+        """
         s = np.asarray(params["s"], dtype=float)
         if self.mode == "dominant":
-            return 1.0 - np.asarray(params["h"], dtype=float) * s
-        return 1.0 - s
+            s = np.asarray(params["h"], dtype=float) * s
+        return 1.0 - s / self.ascertained("penetrance", params)
 
     @property
     def observed_f(self) -> float:
@@ -109,7 +124,9 @@ class Fertility(Observation):
 
     def share(self, params) -> np.ndarray:
         """A·w / (A·w + R): the chance that a child has an affected parent."""
-        aw = self.affected_people * np.clip(self.relative_fitness(params), 0.0, None)
+        w = self.relative_fitness(params)
+        # w < 0 (the genotype's selection above the penetrance) has no probability
+        aw = self.affected_people * np.where(w >= 0, w, np.nan)
         return aw / (aw + self.reference_people)
 
     def _log_likelihood(self, state):
@@ -136,7 +153,7 @@ class Fertility(Observation):
 
         Not the conditional binomial: the total T varies too, as in a new study.
         """
-        w = self.relative_fitness(state.params)
+        w = np.clip(self.relative_fitness(state.params), 0.0, None)
         baseline = self.reference_children / self.reference_people
         affected_children = rng.poisson(self.affected_people * w * baseline)
         reference_children = rng.poisson(self.reference_people * baseline)
@@ -152,9 +169,10 @@ class Fertility(Observation):
         return (
             f"{self.label}: {self.affected_people} affected people had {self.affected_children} "
             f"children, {self.reference_people} reference people had {self.reference_children} "
-            f"({self.mode}; selection through fertility alone)"
+            f"({self.mode}{ascertainment_text(self)}; selection through fertility alone)"
         )
 
     def parameters_used(self, model="deterministic"):
         """Life-cycle parameters the likelihood depends on: s (and h)."""
-        return {"s", "h"} if self.mode == "dominant" else {"s"}
+        used = {"s", "h"} if self.mode == "dominant" else {"s"}
+        return used | free_ascertainment(self)

@@ -24,12 +24,16 @@ from infer.model.observations.base import (
     at_least_one,
     binomial_draw,
     check_not_above,
+    ascertainment_text,
+    free_ascertainment,
     log_binomial,
+    parse_ascertainment,
     parse_mode,
+    seen_share,
     x_linked_daughter_genotypes,
 )
 from infer.model.observations.share import FrequencyStatistic
-from infer.validate import choice, format_number, probability, quote_value, whole_count
+from infer.validate import choice, quote_value, whole_count
 
 __all__ = ["AlleleCount", "GenotypeCount", "Affected", "affected_share"]
 
@@ -249,8 +253,10 @@ class GenotypeCount(Observation):
 class Affected(Observation):
     """``affected`` of ``total`` births (male births for ``x-linked-male``).
 
-    Binomial on ``balance.affected_fraction``: penetrance × (Aa + aa) for a
-    dominant, × aa for a recessive, × q_male for an X-linked disorder in sons.
+    Binomial on the counted share c·(P·g + φ): g = (Aa + aa) for a dominant, aa for a
+    recessive, q_male for an X-linked disorder in sons (``balance.affected_fraction``);
+    P the penetrance, c the completeness of the count, φ the phenocopy rate per birth
+    (:func:`seen_share`).
     """
 
     kind: ClassVar[str] = "affected"
@@ -259,13 +265,16 @@ class Affected(Observation):
     #: (c1, c2) of the affected share c1 x + c2 x^2 per mode: 1 - (1 - x)^2, x^2, x
     _SHARE_POLYNOMIAL: ClassVar[dict] = {"dominant": (2.0, -1.0), "recessive": (0.0, 1.0),
                                          "x-linked-male": (1.0, 0.0)}
+    ascertainment: ClassVar[tuple[str, ...]] = ("penetrance", "completeness", "phenocopy")
     required: ClassVar[tuple[str, ...]] = ("affected", "total", "mode")
-    optional: ClassVar[tuple[str, ...]] = ("penetrance",)
+    optional: ClassVar[tuple[str, ...]] = ascertainment
 
     affected: int = 0
     total: int = 1
     mode: str = "dominant"
-    penetrance: float = 1.0
+    penetrance: float | None = None
+    completeness: float | None = None
+    phenocopy: float | None = None
 
     @classmethod
     def _parse(cls, table, field, inheritance):
@@ -274,20 +283,20 @@ class Affected(Observation):
         at_least_one(total, f"{field}.total")
         check_not_above(affected, total, "total", f"{field}.affected")
         mode = parse_mode(table, field, inheritance)
-        penetrance = probability(table.get("penetrance", 1.0), f"{field}.penetrance")
-        if penetrance == 0 and affected > 0:
-            raise InputError("0 cannot produce affected births", field=f"{field}.penetrance")
-        return {"affected": affected, "total": total, "mode": mode, "penetrance": penetrance}
+        return {"affected": affected, "total": total, "mode": mode,
+                **parse_ascertainment(table, field, cls.ascertainment, affected)}
 
     def _fraction(self, state):
-        return affected_share(self.mode, state, self.penetrance)
+        penetrance = self.ascertained("penetrance", state.params)
+        return seen_share(affected_share(self.mode, state, penetrance), self, state.params)
 
     def _log_likelihood(self, state):
         return log_binomial(self.affected, self.total, self._fraction(state))
 
     def _given_frequency(self, x, params):
-        fraction = balance.affected_fraction(self.mode, x, params["F"], self.penetrance)
-        return log_binomial(self.affected, self.total, fraction)
+        penetrance = self.ascertained("penetrance", params)
+        fraction = balance.affected_fraction(self.mode, x, params["F"], penetrance)
+        return log_binomial(self.affected, self.total, seen_share(fraction, self, params))
 
     def statistic(self):
         """The observed affected births."""
@@ -310,19 +319,28 @@ class Affected(Observation):
         return {"affected": int(rng.binomial(self.total, self._fraction(state))[0])}
 
     def frequency_statistic(self):
-        """The affected share of births, against the incidence (sons: q_male) × penetrance."""
+        """The affected share of births, against the incidence (sons: q_male) × P × c.
+
+        P and c at the study's values (1 where they carry a prior: the share is then
+        read as if every affected birth were seen).
+        """
         quantity = "q_male" if self.mode == "x-linked-male" else f"incidence_{self.mode}"
-        return FrequencyStatistic(self.affected, self.total, quantity, self.penetrance,
+        scale = 1.0
+        for name in ("penetrance", "completeness"):
+            value = self.ascertained(name)
+            scale *= 1.0 if value is None else float(value)
+        return FrequencyStatistic(self.affected, self.total, quantity, scale,
                                   f"affected share of births ({self.mode})", of_alleles=False,
                                   share_polynomial=self._SHARE_POLYNOMIAL[self.mode])
 
     def describe(self):
         """One line for reports."""
         births = "male births" if self.mode == "x-linked-male" else "births"
-        pen = "" if self.penetrance == 1 else f", penetrance {format_number(self.penetrance)}"
-        return f"{self.label}: {self.affected} affected of {self.total} {births} ({self.mode}{pen})"
+        seen = ascertainment_text(self)
+        return (f"{self.label}: {self.affected} affected of {self.total} {births} "
+                f"({self.mode}{seen})")
 
     def parameters_used(self, model="deterministic"):
         """Life-cycle parameters the likelihood depends on (no F for sons)."""
-        used = super().parameters_used(model)
+        used = super().parameters_used(model) | free_ascertainment(self)
         return used - {"F"} if self.mode == "x-linked-male" else used

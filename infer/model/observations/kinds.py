@@ -20,13 +20,18 @@ Kinds (``kind = ...`` in a study's ``[[observations]]``):
 * ``registry`` -- ``affected`` of ``births``, ``sporadic`` of them new mutations
   (optional ``familial_unknown``); the multinomial over new-mutation, inherited and
   unaffected births (one registry, one likelihood).
+* ``capture-recapture`` -- cases found by one of two sources or both; informs the
+  study's ``completeness`` (the split between the sources integrated out).
+* ``carrier-mothers`` -- tested mothers of affected sons (X-linked); binomial on the
+  carrier share, which depends on alpha.
 * ``fertility`` -- children of affected and of reference people; the conditional
   binomial that removes the unknown baseline fertility.
-* ``estimate`` -- an outside estimate of mu, s or Ne with a published 95 % interval;
-  a normal term on the log scale.
+* ``estimate`` -- an outside estimate of any parameter with a published 95 % interval;
+  a normal term on the log (or, on [0, 1], logit) scale.
 
 Each kind is one module: :mod:`~infer.model.observations.frequency` (the first three),
 :mod:`~infer.model.observations.sporadic`, :mod:`~infer.model.observations.registry`,
+:mod:`~infer.model.observations.capture`, :mod:`~infer.model.observations.carriers`,
 :mod:`~infer.model.observations.fertility` and
 :mod:`~infer.model.observations.published`. This module holds only the registry
 :data:`KINDS` and :func:`parse_observation`: import a kind's class from its own module.
@@ -39,6 +44,8 @@ from typing import Any
 from infer.errors import InputError
 from infer.model.observations.base import Observation
 from infer.model.observations.fertility import Fertility
+from infer.model.observations.capture import CaptureRecapture
+from infer.model.observations.carriers import CarrierMothers
 from infer.model.observations.frequency import Affected, AlleleCount, GenotypeCount
 from infer.model.observations.published import Estimate
 from infer.model.observations.registry import Registry
@@ -56,6 +63,8 @@ KINDS: dict[str, type[Observation]] = {
         Affected,
         Sporadic,
         Registry,
+        CaptureRecapture,
+        CarrierMothers,
         Fertility,
         Estimate,
     )

@@ -15,12 +15,14 @@ import numpy as np
 
 from infer.core import balance
 from infer.core.stats import log_binomial
-from infer.errors import InputError
 from infer.model.observations.base import (
     Observation,
+    ascertainment_text,
     at_least_one,
     binomial_draw,
     check_not_above,
+    parse_ascertainment,
+    seen_share,
 )
 from infer.model.observations.frequency import Affected, affected_share
 from infer.model.observations.sporadic import (
@@ -28,7 +30,7 @@ from infer.model.observations.sporadic import (
     new_mutation_rate,
     parse_new_mutation_mode,
 )
-from infer.validate import format_number, probability, whole_count
+from infer.validate import whole_count
 
 __all__ = ["Registry", "registry_cells", "shared_birth_warnings"]
 
@@ -68,15 +70,18 @@ class Registry(Observation):
     kind: ClassVar[str] = "registry"
     depends_on_frequency: ClassVar[bool] = True
     statistic_name: ClassVar[str] = "affected births"
+    ascertainment: ClassVar[tuple[str, ...]] = ("penetrance", "completeness", "phenocopy")
     required: ClassVar[tuple[str, ...]] = ("births", "affected", "sporadic", "mode")
-    optional: ClassVar[tuple[str, ...]] = ("familial_unknown", "penetrance")
+    optional: ClassVar[tuple[str, ...]] = ("familial_unknown", *ascertainment)
 
     births: int = 1
     affected: int = 0
     sporadic: int = 0
     mode: str = "dominant"
     familial_unknown: int | None = None
-    penetrance: float = 1.0
+    penetrance: float | None = None
+    completeness: float | None = None
+    phenocopy: float | None = None
 
     @classmethod
     def _parse(cls, table, field, inheritance):
@@ -92,11 +97,9 @@ class Registry(Observation):
             check_not_above(unknown, affected - sporadic, "affected minus sporadic",
                             f"{field}.familial_unknown")
         mode = parse_new_mutation_mode(table, field, inheritance, "registry new-mutation cases")
-        penetrance = probability(table.get("penetrance", 1.0), f"{field}.penetrance")
-        if penetrance == 0 and affected > 0:
-            raise InputError("0 cannot produce affected births", field=f"{field}.penetrance")
         return {"births": births, "affected": affected, "sporadic": sporadic, "mode": mode,
-                "familial_unknown": unknown, "penetrance": penetrance}
+                "familial_unknown": unknown,
+                **parse_ascertainment(table, field, cls.ascertainment, affected)}
 
     @property
     def unknown(self) -> int:
@@ -116,14 +119,30 @@ class Registry(Observation):
         return (log_binomial(self.affected, self.births, p_affected)
                 + log_binomial(self.sporadic, self.affected - self.unknown, share))
 
+    def _counted(self, genetic_share, params):
+        """(counted affected share, counted new-mutation share) of births, per row.
+
+        Genetic cases carry the penetrance P (their new-mutation part r·P capped at the
+        genetic share); phenocopies φ have unaffected parents and count as new; the
+        completeness c multiplies both (:func:`~infer.model.observations.base.seen_share`).
+        """
+        penetrance = self.ascertained("penetrance", params)
+        new_genetic = np.minimum(new_mutation_rate(self.mode, params, penetrance),
+                                 genetic_share)
+        return (seen_share(genetic_share, self, params),
+                seen_share(new_genetic, self, params))
+
+    def _cells(self, state):
+        penetrance = self.ascertained("penetrance", state.params)
+        return self._counted(affected_share(self.mode, state, penetrance), state.params)
+
     def _log_likelihood(self, state):
-        return self._log_counts(affected_share(self.mode, state, self.penetrance),
-                                new_mutation_rate(self.mode, state.params, self.penetrance))
+        return self._log_counts(*self._cells(state))
 
     def _given_frequency(self, x, params):
-        p_affected = balance.affected_fraction(self.mode, x, params["F"], self.penetrance)
-        return self._log_counts(p_affected,
-                                new_mutation_rate(self.mode, params, self.penetrance))
+        penetrance = self.ascertained("penetrance", params)
+        genetic = balance.affected_fraction(self.mode, x, params["F"], penetrance)
+        return self._log_counts(*self._counted(genetic, params))
 
     def statistic(self):
         """The observed affected births."""
@@ -131,13 +150,13 @@ class Registry(Observation):
 
     def expected(self, state):
         """Expected affected births, births × affected share."""
-        share = affected_share(self.mode, state, self.penetrance)
+        share, _ = self._cells(state)
         return np.where(state.exists, self.births * share, np.nan)
 
     def simulate(self, state, rng):
         """Binomial draws of affected births (the margin of the multinomial)."""
-        share = np.where(state.exists, affected_share(self.mode, state, self.penetrance), np.nan)
-        return binomial_draw(rng, self.births, share)
+        share, _ = self._cells(state)
+        return binomial_draw(rng, self.births, np.where(state.exists, share, np.nan))
 
     def statistic_trials(self, state):
         """Binomial(births, affected share) at every row."""
@@ -149,9 +168,8 @@ class Registry(Observation):
         New and inherited cases with known parents, cases with unknown parents (at the
         observed share of the affected), unaffected births.
         """
-        new, inherited, unaffected = (float(np.ravel(c)[0]) for c in registry_cells(
-            affected_share(self.mode, state, self.penetrance),
-            new_mutation_rate(self.mode, state.params, self.penetrance)))
+        new, inherited, unaffected = (float(np.ravel(c)[0])
+                                      for c in registry_cells(*self._cells(state)))
         lost = self.unknown / self.affected if self.affected else 0.0
         cells = [new * (1 - lost), inherited * (1 - lost), (new + inherited) * lost, unaffected]
         sporadic, familial, unknown, _ = (int(c) for c in rng.multinomial(self.births, cells))
@@ -161,8 +179,13 @@ class Registry(Observation):
         return table
 
     def _as_affected(self) -> Affected:
-        return Affected(label=self.label, inheritance=self.inheritance, affected=self.affected,
-                        total=self.births, mode=self.mode, penetrance=self.penetrance)
+        affected = Affected(label=self.label, inheritance=self.inheritance,
+                            affected=self.affected, total=self.births, mode=self.mode,
+                            penetrance=self.penetrance, completeness=self.completeness,
+                            phenocopy=self.phenocopy)
+        affected.bind_ascertainment(getattr(self, "_study_fixed", {}),
+                                    getattr(self, "_study_free", ()))
+        return affected
 
     def frequency_statistic(self):
         """The affected share of births, as for ``affected``."""
@@ -171,7 +194,7 @@ class Registry(Observation):
     def describe(self):
         """One line for reports."""
         births = "male births" if self.mode == "x-linked-male" else "births"
-        pen = "" if self.penetrance == 1 else f", penetrance {format_number(self.penetrance)}"
+        pen = ascertainment_text(self)
         unknown = f", {self.unknown} with parents of unknown status" if self.unknown else ""
         return (f"{self.label}: {self.affected} affected of {self.births} {births}, "
                 f"{self.sporadic} of them new mutations{unknown} ({self.mode}{pen}; one "

@@ -19,10 +19,13 @@ from infer.model.observations.base import (
     Observation,
     at_least_one,
     binomial_draw,
+    ascertainment_text,
     check_not_above,
+    free_ascertainment,
+    parse_ascertainment,
     parse_mode,
 )
-from infer.validate import format_number, probability, whole_count
+from infer.validate import whole_count
 
 __all__ = ["Sporadic", "new_mutation_rate", "parse_new_mutation_mode"]
 
@@ -60,19 +63,23 @@ class Sporadic(Observation):
     one: probability 2·mu per birth (Vogel & Motulsky, *Human Genetics*, direct
     method).  An X-linked son inherits only his mother's X: probability mu_female,
     with mu_female = 3 mu / (2 + alpha) (``balance.sex_specific_rates``).  Both are
-    multiplied by the penetrance.
+    multiplied by the penetrance; phenocopies add to them and the completeness of the
+    count multiplies the sum (:meth:`rate`).
     """
 
     kind: ClassVar[str] = "sporadic"
     depends_on_frequency: ClassVar[bool] = False
     statistic_name: ClassVar[str] = "sporadic cases"
+    ascertainment: ClassVar[tuple[str, ...]] = ("penetrance", "completeness", "phenocopy")
     required: ClassVar[tuple[str, ...]] = ("cases", "births", "mode")
-    optional: ClassVar[tuple[str, ...]] = ("penetrance",)
+    optional: ClassVar[tuple[str, ...]] = ascertainment
 
     cases: int = 0
     births: int = 1
     mode: str = "dominant"
-    penetrance: float = 1.0
+    penetrance: float | None = None
+    completeness: float | None = None
+    phenocopy: float | None = None
 
     @classmethod
     def _parse(cls, table, field, inheritance):
@@ -81,14 +88,21 @@ class Sporadic(Observation):
         at_least_one(births, f"{field}.births")
         check_not_above(cases, births, "births", f"{field}.cases")
         mode = parse_new_mutation_mode(table, field, inheritance, "sporadic cases")
-        penetrance = probability(table.get("penetrance", 1.0), f"{field}.penetrance")
-        if penetrance == 0 and cases > 0:
-            raise InputError("0 cannot produce sporadic cases", field=f"{field}.penetrance")
-        return {"cases": cases, "births": births, "mode": mode, "penetrance": penetrance}
+        return {"cases": cases, "births": births, "mode": mode,
+                **parse_ascertainment(table, field, cls.ascertainment, cases)}
 
     def rate(self, params) -> np.ndarray:
-        """Probability that a birth is a sporadic case, per row (:func:`new_mutation_rate`)."""
-        return new_mutation_rate(self.mode, params, self.penetrance)
+        """Probability that a birth is a counted sporadic case, per row.
+
+        c·(r·P + φ): the new-mutation rate r of :func:`new_mutation_rate` times the
+        penetrance P, plus phenocopies φ (their parents are unaffected: they look like new
+        mutations), times the completeness c of the count.
+        """
+        penetrance = self.ascertained("penetrance", params)
+        completeness = self.ascertained("completeness", params)
+        phenocopy = self.ascertained("phenocopy", params)
+        return np.clip(completeness * (new_mutation_rate(self.mode, params, penetrance)
+                                       + phenocopy), 0.0, 1.0)
 
     def _log_likelihood(self, state):
         return log_binomial(self.cases, self.births, self.rate(state.params))
@@ -119,12 +133,12 @@ class Sporadic(Observation):
     def describe(self):
         """One line for reports."""
         births = "male births" if self.mode == "x-linked-male" else "births"
-        pen = "" if self.penetrance == 1 else f", penetrance {format_number(self.penetrance)}"
         return (
             f"{self.label}: {self.cases} new-mutation cases in {self.births} {births} "
-            f"({self.mode}{pen})"
+            f"({self.mode}{ascertainment_text(self)})"
         )
 
     def parameters_used(self, model="deterministic"):
         """Life-cycle parameters the likelihood depends on: mu (and alpha)."""
-        return {"mu", "alpha"} if self.mode == "x-linked-male" else {"mu"}
+        used = {"mu", "alpha"} if self.mode == "x-linked-male" else {"mu"}
+        return used | free_ascertainment(self)

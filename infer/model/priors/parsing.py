@@ -15,7 +15,8 @@ normal         ``mean``, ``sd``             Normal(mean, sd) truncated to the su
 =============  ===========================  ============================================
 
 Supports (:data:`SUPPORT`): mu (0, 1), s (0, 1], h [0, 1], F [0, 1), nu [0, 1),
-Ne (0, inf), alpha (0, inf).  Prior bounds may touch the ends of a support
+Ne (0, inf), alpha (0, inf), penetrance (0, 1], completeness (0, 1], phenocopy [0, 1).
+Prior bounds may touch the ends of a support
 (``uniform(0, 1)`` for s is allowed: a single end point carries no probability);
 a fixed value must lie inside it.
 
@@ -32,6 +33,9 @@ nu     fixed 0 (no back mutation)  fixed 1e-09 (Wright's density needs nu > 0; s
                                    that it does not matter for a deleterious allele)
 Ne     fixed inf (not used)        required: there is no sensible default
 alpha  fixed 1 (equal rates)       same
+pen.   fixed 1 (``penetrance``)    same
+comp.  fixed 1 (``completeness``)  same
+phen.  fixed 0 (``phenocopy``)     same
 =====  ==========================  ===========================================================
 
 Sampling coordinates: every prior maps its support to the whole real line with
@@ -97,6 +101,9 @@ DEFAULTS: dict[str, Prior | Fixed] = {
     "nu": Fixed("nu", 0.0),
     "Ne": Fixed("Ne", math.inf),
     "alpha": Fixed("alpha", 1.0),
+    "penetrance": Fixed("penetrance", 1.0),
+    "completeness": Fixed("completeness", 1.0),
+    "phenocopy": Fixed("phenocopy", 0.0),
 }
 """Defaults of the deterministic model (Ne = inf: an infinite population, unused)."""
 
