@@ -272,6 +272,7 @@ def _loci_blocks(scan, store, mu_level):
         block = store[index]
         yield {"names": block.names, "observed": block.observed, "sampled": block.sampled,
                "mu": block.mu, "mu_lower": block.mu_lower, "mu_upper": block.mu_upper,
+               "recessive": block.recessive,
                "mu_sigma": mu_sigma_from_interval(block.mu_lower, block.mu_upper, mu_level)}
 
 

@@ -12,6 +12,8 @@ sampled    yes       alleles sampled (2 × people for an autosome), whole number
 mu         yes       per-locus mutation rate per generation (median), 0 < mu < 1
 mu_lower   no        lower end of a central interval for mu (log-normal)
 mu_upper   no        upper end; both or neither, lower <= mu <= upper; empty = exact
+mode       no        ``dominant`` or ``recessive`` (the disorder's mode; empty = not
+                     known): s_het assumes h = 1/2, so recessive loci are flagged
 ========== ========= ===============================================================
 
 Header names are matched without regard to case or surrounding spaces, and a name may
@@ -41,6 +43,9 @@ __all__ = ["REQUIRED", "OPTIONAL", "LociTable", "LociBlock", "LociScan", "scan_l
 
 REQUIRED = ("locus", "observed", "sampled", "mu")
 OPTIONAL = ("mu_lower", "mu_upper")
+#: the optional column of the disorder's mode, read as ``recessive`` 1.0 / 0.0 / NaN
+MODE_COLUMN = "mode"
+MODE_VALUES = {"dominant": 0.0, "recessive": 1.0}
 
 
 @dataclass
@@ -55,6 +60,7 @@ class LociTable:
     mu: np.ndarray
     mu_lower: np.ndarray          # NaN where not given
     mu_upper: np.ndarray
+    recessive: np.ndarray = None  # 1.0 recessive, 0.0 dominant, NaN not given
     skipped: list = field(default_factory=list)   # {"line", "column", "message"}
     ignored_columns: list = field(default_factory=list)
 
@@ -81,8 +87,20 @@ def _number(text, column, *, whole=False):
     return value
 
 
+def _mode(cells, index) -> float:
+    text = cells[index[MODE_COLUMN]].strip().lower() if MODE_COLUMN in index else ""
+    if text == "":
+        return math.nan
+    if text not in MODE_VALUES:
+        raise InputError(f"{text!r} is not dominant or recessive (or empty)", field=MODE_COLUMN)
+    return MODE_VALUES[text]
+
+
 def _parse_row(cells, index, seen):
-    """The row's (name, observed, sampled, mu, mu_lower, mu_upper); InputError(field=column)."""
+    """The row's (name, observed, sampled, mu, mu_lower, mu_upper, recessive).
+
+    Raises InputError(field=column).
+    """
     name = cells[index["locus"]].strip()
     if not name:
         raise InputError("is empty", field="locus")
@@ -113,7 +131,7 @@ def _parse_row(cells, index, seen):
             raise InputError(f"{upper:g} is not in [mu = {mu:g}, 1)", field="mu_upper")
     else:
         lower = upper = math.nan
-    return name, observed, sampled, mu, lower, upper
+    return name, observed, sampled, mu, lower, upper, _mode(cells, index)
 
 
 @dataclass
@@ -127,6 +145,7 @@ class LociBlock:
     mu: np.ndarray
     mu_lower: np.ndarray
     mu_upper: np.ndarray
+    recessive: np.ndarray
 
 
 @dataclass
@@ -141,7 +160,7 @@ class LociScan:
     ignored_columns: list = field(default_factory=list)
 
 
-_COLUMNS = ("observed", "sampled", "mu", "mu_lower", "mu_upper")
+_COLUMNS = ("observed", "sampled", "mu", "mu_lower", "mu_upper", "recessive")
 
 
 class _SeenNames:
@@ -199,7 +218,7 @@ def _header(cells, line, source):
     if missing:
         raise InputError(f"the header has no column {missing[0]!r} (needs "
                          f"{', '.join(REQUIRED)})", source=source, field=f"line {line}")
-    return header, {name: header.index(name) for name in (*REQUIRED, *OPTIONAL)
+    return header, {name: header.index(name) for name in (*REQUIRED, *OPTIONAL, MODE_COLUMN)
                     if name in header}
 
 
@@ -303,7 +322,8 @@ def scan_loci(path, store, *, skip_bad_rows=False, block_rows=65536) -> LociScan
         raise InputError("no usable loci after the header", source=source)
     return LociScan(source=source, count=count, blocks=blocks, max_observed=most,
                     skipped=errors,
-                    ignored_columns=[c for c in header if c not in (*REQUIRED, *OPTIONAL)])
+                    ignored_columns=[c for c in header
+                                     if c not in (*REQUIRED, *OPTIONAL, MODE_COLUMN)])
 
 
 def read_loci(path, *, skip_bad_rows=False) -> LociTable:

@@ -92,7 +92,7 @@ from infer.jobs.batch.prior import (
     hyper_grid,
     log_marginal_surface,
 )
-from infer.jobs.batch.summary import FLAGS, posterior_summary
+from infer.jobs.batch.summary import FLAGS, RECESSIVE_FLAG, posterior_summary
 
 __all__ = [
     "BatchSettings",
@@ -343,7 +343,11 @@ def posteriors(chunks, settings: BatchSettings, prior: SHetPrior, *, map_chunks=
     in_flight = collections.deque()
     tasks = _tasks("posterior", chunks, settings, prior, store, in_flight)
     for part in map_chunks(run_chunk, tasks):
-        yield in_flight.popleft(), part
+        chunk = in_flight.popleft()
+        if chunk.get("recessive") is not None:
+            part["flags"] = np.asarray(part["flags"]) | np.where(
+                np.asarray(chunk["recessive"]) == 1.0, RECESSIVE_FLAG, 0)
+        yield chunk, part
         if progress:
             progress()
 

@@ -10,7 +10,7 @@ from infer.jobs.batch.likelihood import _log_binomial_lattice
 from infer.jobs.batch.prior import SHetPrior, trapezoid_weights
 from infer.core.stats import Z975
 
-__all__ = ["posterior_summary", "FLAGS", "H_HALF_NOTE"]
+__all__ = ["posterior_summary", "FLAGS", "H_HALF_NOTE", "RECESSIVE_FLAG"]
 
 FLAGS = {
     1: ("zero-observed", "zero observed: only a lower bound on s_het"),
@@ -25,7 +25,12 @@ FLAGS = {
     64: ("sample-exceeds-2Ne", "drift model: more allele copies sampled than the 2Ne "
          "genes of the population; the binomial sample of a stationary frequency no "
          "longer holds (sampling is effectively the whole population, or Ne is too low)"),
+    128: ("recessive-locus", "the loci file gives mode = recessive: s_het assumes selection "
+          "on heterozygotes (h = 1/2); a recessive disorder's heterozygotes are barely "
+          "selected (q ~ sqrt(mu/s)), so this s_het is not its selection coefficient"),
 }
+#: the flag of a locus whose disorder the loci file says is recessive
+RECESSIVE_FLAG = 128
 #: what every s_het in a batch assumes (docs/model.md): the balance q ~ mu/s_het holds for
 #: h = 1/2 (s_het = h·s the heterozygote's selection); for a recessive disorder (h ~ 0)
 #: it does not apply
