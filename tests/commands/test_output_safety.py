@@ -36,7 +36,7 @@ from infer.reporting.folder import MARKER
 STUDY = DEMO / "island-dominant.toml"
 CLAIM = DEMO / "claim-northholm-indirect.toml"     # a consistent claim: exit 0
 LOCI = DEMO / "batch_loci.csv"
-CHECK_FILES = ["balance.png", "check.json", "report.md"]
+CHECK_FILES = ["balance.png", "check.json", "report.html", "report.md"]
 EQUILIBRIUM = ["equilibrium", "--mu", "1e-5", "--s", "0.1", "--h", "0.5"]
 SIMULATE = ["simulate", "--Ne", "50", "--mu", "1e-3", "--s", "0.1", "--h", "0.5",
             "--generations", "100", "--replicates", "3", "--seed", "1"]
