@@ -147,8 +147,7 @@ def main(argv: list[str] | None = None) -> int:
         print(f"qhat: error: {error}", file=sys.stderr)
         return EXIT_INPUT
     except KeyboardInterrupt:
-        if sys.stderr.isatty():
-            print(file=sys.stderr)  # end a progress line drawn with carriage returns
+        # a progress bar has ended or erased its own line (docs/command-line.md)
         print("qhat: interrupted; nothing was written", file=sys.stderr)
         return 130
     except BrokenPipeError:

@@ -3,9 +3,10 @@
 Reads a loci CSV (columns in ``infer.files.loci``), computes every locus's posterior of
 s_het by exact quadrature (``infer.jobs.batch.run``), gathers a ``BatchReport``
 (``infer.jobs.batch.report``) and writes a report folder (``infer.reporting.batch_report``):
-loci.csv, summary.json and three PNG figures. ``--jobs N`` runs chunks of loci in N local
-processes; ``--scheduler ADDRESS`` on a dask.distributed cluster. The chunks, and so
-the results, are the same whichever way the work runs.
+loci.csv, summary.json, timing.json, report.md, report.html and three PNG figures; it
+prints a one-line summary, or with ``--json`` summary.json. ``--jobs N`` runs chunks of
+loci in N local processes; ``--scheduler ADDRESS`` on a dask.distributed cluster. The
+chunks, and so the results, are the same whichever way the work runs.
 """
 
 from __future__ import annotations
@@ -50,7 +51,8 @@ def add_arguments(parser) -> None:
     add("--skip-bad-rows", action="store_true",
         help="leave bad rows out, listing each one, instead of stopping")
     add("--force", action="store_true", help="replace an existing --out")
-    add("--quiet", action="store_true", help="no progress bar or summary line")
+    checks.add_json(parser, "summary.json")
+    checks.add_quiet(parser)
 
 
 def _check_options(args):
@@ -185,6 +187,7 @@ def _executor(args, scratch=None):
             from infer.reporting.folder import note_work_path
 
             note_work_path(scratch, util.get_temp_dir())
+        _start_forkserver_quietly()
         pool = ProcessPoolExecutor(max_workers=args.jobs, mp_context=context,
                                    initializer=watch_parent, initargs=(os.getpid(),))
         try:
@@ -205,6 +208,27 @@ def _executor(args, scratch=None):
             pool.shutdown(wait=True)
     else:
         yield map
+
+
+def _start_forkserver_quietly() -> None:
+    """Start the forkserver with its stderr on the null device.
+
+    Workers are forked by the forkserver and inherit its standard streams. A worker
+    requested just before an interrupt is forked after qhat has removed the pool's
+    semaphores and fails while unpickling them; with the forkserver's stderr closed that
+    failure stays silent, so an interrupted batch still prints its one line. A worker's
+    own exceptions reach qhat through its futures, not through stderr.
+    """
+    from multiprocessing import forkserver
+
+    saved, null = os.dup(2), os.open(os.devnull, os.O_WRONLY)
+    try:
+        os.dup2(null, 2)
+        forkserver.ensure_running()
+    finally:
+        os.dup2(saved, 2)
+        os.close(saved)
+        os.close(null)
 
 
 def _end_forkserver() -> None:
@@ -293,7 +317,12 @@ def _run(args, out, started) -> int:
     except OSError as error:      # the temporary store (a full disk, a file size limit)
         raise InputError(f"cannot write the temporary folder {scratch or ''}: "
                          f"{error.strerror or error}; nothing was written to {out}") from None
-    if not args.quiet:
+    if args.json:
+        from infer.reporting.batch_report import batch_document
+        from infer.reporting.jsonout import dumps
+
+        sys.stdout.write(dumps(batch_document(report)))
+    else:
         print(f"qhat batch: {count} loci -> {out} ({report.result.prior.describe()}; "
               f"{report.flagged} flags; {time.perf_counter() - started:.1f} s). "
               f"{caution_sentence()}")

@@ -3,7 +3,8 @@
 Do they fit together under mutation-selection balance?
 
 Prints each finding with its severity; ``--json`` prints ``{consistent, findings,
-implied}``; ``--out DIR`` writes ``report.md``, ``check.json`` and ``balance.png``
+implied}`` (with ``schema_version`` and ``qhat_version``); ``-q`` is accepted (there is no
+progress to silence); ``--out DIR`` writes ``report.md``, ``check.json`` and ``balance.png``
 atomically. Exit status 0 when consistent, 3 when any finding is an error, 2 on bad input.
 The check is :func:`infer.jobs.check.run.check_claim`; the renderers are in
 :mod:`infer.reporting.check_report`.
@@ -13,6 +14,8 @@ from __future__ import annotations
 
 import sys
 
+from infer.commands import options as checks
+
 __all__ = ["add_arguments", "run"]
 
 EXIT_OK, EXIT_INCONSISTENT = 0, 3
@@ -21,8 +24,8 @@ EXIT_OK, EXIT_INCONSISTENT = 0, 3
 def add_arguments(parser) -> None:
     """Register the options of ``qhat check``."""
     parser.add_argument("claim", metavar="CLAIM.toml", help="the claim file (TOML)")
-    parser.add_argument("--json", action="store_true",
-                        help="print {consistent, findings, implied} as JSON")
+    checks.add_json(parser, "{consistent, findings, implied}")
+    checks.add_quiet(parser)
     parser.add_argument("--out", metavar="DIR", help="write report.md, check.json and "
                         "balance.png into this folder")
     parser.add_argument("--force", action="store_true", help="replace an existing folder")

@@ -7,8 +7,11 @@ folder), found with :mod:`importlib.resources`, so the demo runs from any folder
 from __future__ import annotations
 
 import contextlib
+import io
 import sys
 from pathlib import Path
+
+from infer.commands import options as checks
 
 #: the package that holds the invented scenarios (data_demo/ in the repository)
 DEMO_PACKAGE = "infer.data_demo"
@@ -24,7 +27,8 @@ def add_arguments(parser) -> None:
                         help="folder for the reports (default: reports)")
     parser.add_argument("--copy", default=None, metavar="DIR",
                         help="copy the shipped scenarios into DIR (to read or edit) and stop")
-    parser.add_argument("--quiet", action="store_true", help="no progress on stderr")
+    checks.add_json(parser, "each scenario's command, exit status and report folder")
+    checks.add_quiet(parser)
 
 
 @contextlib.contextmanager
@@ -81,19 +85,40 @@ def run(args) -> int:
         return _copy(Path(args.copy))
     if args.data is None:
         with shipped_scenarios() as data:
-            return _run_all(data, Path(args.out), args.quiet)
+            return _run_all(data, Path(args.out), args.quiet, args.json)
     from infer.errors import InputError
 
     data = Path(args.data)
     if not data.is_dir():
         raise InputError(f"{data} is not a folder", source="--data")
-    return _run_all(data, Path(args.out), args.quiet)
+    return _run_all(data, Path(args.out), args.quiet, args.json)
 
 
-def _run_all(data: Path, out: Path, quiet: bool) -> int:
-    """Run every scenario of ``data``; reports go to ``out/<file name>``."""
-    from infer.errors import InputError
+#: exit statuses that count as done, by job (3 = an inconsistent claim: a finding)
+DONE = {"estimate": (0,), "check": (0, 3), "batch": (0,)}
+
+
+def _commands(jobs: dict[str, list[Path]], out: Path):
+    """(job, scenario file, report folder, argument list) of every scenario, in run order."""
     from infer.reporting.folder import safe_name
+
+    extra = {"estimate": [], "check": [], "batch": ["--prior", "empirical"]}
+    for job in ("estimate", "check", "batch"):
+        for path in jobs[job]:
+            target = out / safe_name(path.stem)
+            yield job, path, target, [job, str(path), "--out", str(target), "--force",
+                                      *extra[job]]
+
+
+def _run_all(data: Path, out: Path, quiet: bool, as_json: bool = False) -> int:
+    """Run every scenario of ``data``; reports go to ``out/<file name>``.
+
+    Text: each command's header line and output on stdout. ``--json``: the headers go to
+    stderr (progress, left out with ``--quiet``), the commands' own output is dropped,
+    and stdout holds one document listing each scenario, its command, exit status and
+    report folder (schema ``demo``).
+    """
+    from infer.errors import InputError
 
     jobs = _scenarios(data)
     if not any(jobs.values()):
@@ -101,23 +126,32 @@ def _run_all(data: Path, out: Path, quiet: bool) -> int:
     out.mkdir(parents=True, exist_ok=True)
     from infer.cli import main as qhat
 
-    failures = 0
-    for path in jobs["estimate"]:
-        target = out / safe_name(path.stem)
-        print(f"== qhat estimate {_shown(path)} --out {target}", flush=True)
-        argv = ["estimate", str(path), "--out", str(target), "--force"]
-        failures += qhat(argv + (["--quiet"] if quiet else [])) != 0
-    for path in jobs["check"]:
-        target = out / safe_name(path.stem)
-        print(f"== qhat check {_shown(path)} --out {target}", flush=True)
-        status = qhat(["check", str(path), "--out", str(target), "--force"])
-        failures += status not in (0, 3)  # 3 = inconsistent claim, a finding, not a failure
-    for path in jobs["batch"]:
-        target = out / safe_name(path.stem)
-        print(f"== qhat batch {_shown(path)} --out {target}", flush=True)
-        argv = ["batch", str(path), "--out", str(target), "--force", "--prior", "empirical"]
-        failures += qhat(argv + (["--quiet"] if quiet else [])) != 0
-    print(f"demo reports are in {out}/ (research estimates, not clinical results)")
+    runs, failures = [], 0
+    for job, path, target, argv in _commands(jobs, out):
+        shown = f"qhat {job} {_shown(path)} --out {target}"
+        if not as_json:
+            print(f"== {shown}", flush=True)
+        elif not quiet:
+            print(f"== {shown}", file=sys.stderr, flush=True)
+        argv = argv + (["--quiet"] if quiet else [])
+        if as_json:
+            with contextlib.redirect_stdout(io.StringIO()):
+                status = qhat(argv)
+        else:
+            status = qhat(argv)
+        done = status in DONE[job]
+        failures += not done
+        runs.append({"job": job, "scenario": path.name, "command": ["qhat", *argv],
+                     "status": status, "done": done, "report": str(target)})
+    if as_json:
+        from infer.core.text import CAUTION_LINE
+        from infer.reporting.jsonout import dumps, versioned
+
+        sys.stdout.write(dumps(versioned({
+            "caution": CAUTION_LINE, "command": "qhat demo", "data": str(data),
+            "out": str(out), "scenarios": runs, "failures": failures})))
+    else:
+        print(f"demo reports are in {out}/ (research estimates, not clinical results)")
     if failures:
         print(f"qhat: {failures} demo scenario(s) failed", file=sys.stderr)
         return 1

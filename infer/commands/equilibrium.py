@@ -34,7 +34,8 @@ def add_arguments(parser) -> None:
         help="x-linked: male-to-female mutation rate ratio (default 1); "
         "mu is the sex-averaged rate (2 mu_female + mu_male)/3")
     add("--penetrance", metavar="P", help="probability an affected genotype shows (default 1)")
-    add("--json", action="store_true", help="print one JSON object instead of the table")
+    checks.add_json(parser, "the results")
+    checks.add_quiet(parser)
     add("--plot", metavar="FILE.png", help="draw q_hat against h with the approximations")
     add("--Ne", metavar="N", help="effective size: add Wright's stationary distribution "
         "(autosomal, F = 0, needs nu > 0)")
@@ -81,9 +82,11 @@ def _regime(exists: bool, q: float | None, nu: float, s: float) -> str:
 
 
 def compute(options: dict) -> dict:
-    """Every reported quantity for one locus, as a JSON-ready dict (NaN -> None later)."""
-    import numpy as np
+    """Every reported quantity for one locus, as a dict (a value that does not apply is None).
 
+    A quantity without a value where it applies (q_hat with no stable equilibrium) is NaN,
+    which the JSON output writes as ``"nan"`` (docs/reports.md, 'JSON documents').
+    """
     from infer.core import approximations, balance
 
     mu, s, h, F, nu = (options[k] for k in ("mu", "s", "h", "F", "nu"))
@@ -131,8 +134,6 @@ def compute(options: dict) -> dict:
     result["affected"] = affected
     if options["Ne"] is not None:
         result.update(_stationary(options))
-    result = {k: (None if isinstance(v, float) and not np.isfinite(v) else v)
-              for k, v in result.items()}
     return result
 
 
@@ -185,7 +186,7 @@ def render_table(result: dict) -> str:
                  ("mutation load (1 - mean fitness)", result["load"])]
     width = max(len(r[0]) for r in rows) + 2
     lines += [f"{label:<{width}}{_format(value, 10)}" for label, value in rows]
-    if result["load"] is not None and p["mu"] > 0:
+    if math.isfinite(result["load"]) and p["mu"] > 0:
         lines.append(f"{'load / mu':<{width}}{result['load'] / p['mu']:.4f}")
     lines += [f"{'regime':<{width}}{result['regime']}", ""]
     target = "q_male" if result["inheritance"] == "x-linked" else "q_hat"
@@ -238,9 +239,9 @@ def run(args) -> int:
         except OSError as error:
             raise file_error(error, options["plot"]) from None
     if args.json:
-        from infer.reporting.jsonout import dumps
+        from infer.reporting.jsonout import dumps, versioned
 
-        sys.stdout.write(dumps(result))
+        sys.stdout.write(dumps(versioned(result)))
     else:
         sys.stdout.write(render_table(result))
     return 0

@@ -27,6 +27,9 @@ from infer.errors import InputError
 
 __all__ = [
     "Range",
+    "QUIET_HELP",
+    "add_json",
+    "add_quiet",
     "accept_negative_numbers",
     "option_error",
     "option_name",
@@ -68,6 +71,22 @@ BATCH_PRIORS = ("log-uniform", "empirical")
 
 # "-1e-5", "-.5", "-2": values, not options (argparse alone knows only "-1" and "-.5")
 _NEGATIVE_NUMBER = re.compile(r"^-(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+
+#: what ``-q/--quiet`` means for every command (docs/command-line.md,
+#: 'Progress, -q/--quiet and --json')
+QUIET_HELP = "no progress on stderr, results only (warnings are still printed)"
+
+
+def add_quiet(parser) -> None:
+    """Register ``-q/--quiet`` with the one meaning every command gives it."""
+    parser.add_argument("-q", "--quiet", action="store_true", help=QUIET_HELP)
+
+
+def add_json(parser, what: str) -> None:
+    """Register ``--json``: print ``what`` (one JSON document) on stdout instead of text."""
+    parser.add_argument("--json", action="store_true",
+                        help=f"print {what} as one JSON document on stdout instead of text")
 
 
 def accept_negative_numbers(parser) -> None:

@@ -9,7 +9,6 @@ checked by :func:`infer.commands.options.simulate_options`; the figure is
 
 from __future__ import annotations
 
-import json
 import sys
 
 from infer.commands import options as checks
@@ -38,8 +37,8 @@ def add_arguments(parser) -> None:
         help="generations dropped at the start (default a fifth)")
     add("--thin", default=1, metavar="N", help="keep every THIN-th generation (default 1)")
     add("--seed", default=None, metavar="N", help="seed of the random generator")
-    add("--json", action="store_true", help="print one JSON object")
-    add("--quiet", action="store_true", help="no progress bar on stderr")
+    checks.add_json(parser, "the results")
+    checks.add_quiet(parser)
     add("--plot", metavar="FILE.png", default=None, help="draw trajectories and the histogram")
 
 
@@ -114,7 +113,9 @@ def run(args) -> int:
             raise file_error(error, args.plot) from None
         print(f"wrote {args.plot}", file=sys.stderr)
     if args.json:
-        print(json.dumps(document, indent=2))
+        from infer.reporting.jsonout import dumps, versioned
+
+        sys.stdout.write(dumps(versioned(document)))
     else:
         _print_text(document)
     return 0

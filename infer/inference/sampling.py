@@ -282,7 +282,11 @@ def run_to_convergence(
         The only source of randomness; every ensemble is seeded from it.
     settings : SamplerSettings
     progress : callable, optional
-        Called as ``progress(steps_done, max_steps)`` after each block.
+        Called as ``progress(steps_done, max_steps)`` after each block. If it also has a
+        method ``ess(ess_bulk, target_ess)``, that is called after each convergence check
+        of the sampling phase with the smallest bulk ESS over the free parameters (so a
+        progress bar can show how far the run is from its target, and when it will get
+        there).
     constrain : callable, optional
         Maps unconstrained points (n, ndim) to the values reported (n, ndim), e.g. the
         parameters on their own scale; ESS and R-hat are computed on these, so that they
@@ -325,6 +329,7 @@ def run_to_convergence(
         return np.moveaxis(values.reshape(steps_, groups, walkers, *rest), 1, 0)
 
     started = time.perf_counter()
+    report_ess = getattr(progress, "ess", None)
     steps = 0
     messages: list[str] = []
     moved = 0
@@ -403,6 +408,8 @@ def run_to_convergence(
                 restart = True
                 break
             ess_bulk, ess_tail, r_hat = _diagnose(kept, constrain)
+            if report_ess is not None:
+                report_ess(float(np.min(ess_bulk)), settings.target_ess)
             long_enough = (main_steps - discard) > settings.tau_multiple * tau
             stable = (previous_tau is not None
                       and np.all(np.abs(tau - previous_tau) <= settings.tau_stability * tau))

@@ -106,5 +106,5 @@ def batch_markdown(document: dict, figures=tuple(_FIGURES)) -> str:
             lines += [f"### {title}", "", f"![{title}]({name})", ""]
     lines += ["## Files", "", "- `loci.csv`: one row per locus (median, interval, mean, "
               "expected count, flags).", "- `summary.json`: every number above, "
-              "machine-readable.", "", CAUTION, ""]
+              "machine-readable.", "- `timing.json`: the wall times of the run.", "", CAUTION, ""]
     return "\n".join(lines)

@@ -1,7 +1,8 @@
 """Render a :class:`~infer.jobs.batch.report.BatchReport`: loci.csv, summary.json, the figures.
 
 :func:`loci_rows` gives the rows of loci.csv, :func:`batch_document` the object of
-summary.json, and :func:`write_batch_report` writes the report folder atomically (the
+summary.json (the same inputs give the same bytes: wall times go to timing.json,
+:func:`timing_document`), and :func:`write_batch_report` writes the report folder atomically (the
 figures of :mod:`infer.reporting.plots.batch_figures`, report.md of
 :mod:`infer.reporting.batch_markdown` and its report.html).
 """
@@ -20,15 +21,16 @@ from infer.core.text import CAUTION_LINE, spreadsheet_safe
 from infer.reporting.batch_markdown import batch_markdown
 from infer.reporting.folder import atomic_folder
 from infer.reporting.html import report_html
-from infer.reporting.jsonout import dumps
+from infer.reporting.jsonout import dumps, versioned
 from infer.reporting.plots.batch_figures import BATCH_FIGURE_FILES, batch_figures
 from infer.reporting.plots.save import save_figures
 
 __all__ = ["BATCH_FILES", "LOCI_COLUMNS", "loci_rows", "batch_assumptions", "batch_document",
-           "BatchFolder", "open_batch_report", "write_batch_report"]
+           "timing_document", "BatchFolder", "open_batch_report", "write_batch_report"]
 
 #: files of a batch report folder, as summary.json lists them
-BATCH_FILES = ("loci.csv", "summary.json", "report.md", "report.html", *BATCH_FIGURE_FILES)
+BATCH_FILES = ("loci.csv", "summary.json", "timing.json", "report.md", "report.html",
+               *BATCH_FIGURE_FILES)
 #: header of loci.csv
 LOCI_COLUMNS = ("locus", "observed", "sampled", "mu", "mu_lower", "mu_upper", "s_het_median",
                 "s_het_lower", "s_het_upper", "s_het_mean", "expected", "flags")
@@ -128,13 +130,15 @@ def batch_document(report) -> dict:
     Returns
     -------
     dict
-        Input, model, settings, prior, log marginal likelihood, flag counts, quantiles of
-        the medians across loci, execution, timings and the files of the folder.
+        Schema and qhat versions, input, model, settings, prior, log marginal likelihood,
+        flag counts, quantiles of the medians across loci, execution and the files of the
+        folder (schema ``batch-summary`` of :mod:`infer.reporting.schemas`); no wall time,
+        so the same inputs give the same document.
     """
     result, table = report.result, report.table
     settings = result.settings
     deterministic = settings.model == "deterministic"
-    return {
+    return versioned({
         "caution": CAUTION_LINE,
         "command": "qhat batch",
         "input": {"file": table.source, "loci": report.loci,
@@ -167,16 +171,31 @@ def batch_document(report) -> dict:
                                 for p, value in report.median_quantiles.items()},
         "execution": {"jobs": report.jobs, "scheduler": report.scheduler,
                       "chunks": result.chunks},
-        "timings": report.timings,
         "files": list(BATCH_FILES),
-    }
+    })
+
+
+def timing_document(report) -> dict:
+    """The object of a batch folder's timing.json: the run's wall times in seconds.
+
+    Parameters
+    ----------
+    report : infer.jobs.batch.report.BatchReport
+
+    Returns
+    -------
+    dict
+        Schema and qhat versions, then ``report.timings`` (``read_seconds``,
+        ``compute_seconds`` for a run of ``qhat batch``; schema ``timing``).
+    """
+    return versioned(dict(report.timings))
 
 
 class BatchFolder:
     """A batch report folder being written: loci.csv row by row, then the rest.
 
     Made by :func:`open_batch_report`; :meth:`add` appends one chunk's rows to loci.csv,
-    :meth:`finish` writes summary.json, report.md, report.html and the figures.
+    :meth:`finish` writes summary.json, timing.json, report.md, report.html and the figures.
     """
 
     def __init__(self, folder: Path, handle):
@@ -190,11 +209,15 @@ class BatchFolder:
         self._writer.writerows(_rows(loci_read, loci, marks=self._marks))
 
     def finish(self, report) -> None:
-        """Write everything but loci.csv from the finished ``report`` (a ``BatchReport``)."""
+        """Write everything but loci.csv from the finished ``report`` (a ``BatchReport``).
+
+        summary.json, timing.json (the wall times), report.md, report.html and the figures.
+        """
         folder = self.folder
         figures = save_figures(lambda: batch_figures(report), folder, dpi=_DPI)
         document = batch_document(report)
         (folder / "summary.json").write_text(dumps(document), encoding="utf-8")
+        (folder / "timing.json").write_text(dumps(timing_document(report)), encoding="utf-8")
         text = batch_markdown(document, tuple(figures))
         (folder / "report.md").write_text(text, encoding="utf-8")
         images = {name: (folder / name).read_bytes() for name in figures}
@@ -215,7 +238,9 @@ def open_batch_report(out, *, force: bool = False):
 
 
 def write_batch_report(report, out, *, force: bool = False) -> Path:
-    """Write loci.csv, summary.json, report.md, report.html and the figures atomically.
+    """Write loci.csv, summary.json, timing.json, report.md, report.html and the figures.
+
+    The folder appears atomically, when everything is written.
 
     Parameters
     ----------

@@ -14,7 +14,7 @@ from pathlib import Path
 from infer.core.text import CAUTION, caution_sentence, fmt, shown
 from infer.reporting.folder import atomic_folder
 from infer.reporting.html import report_html
-from infer.reporting.jsonout import dumps
+from infer.reporting.jsonout import dumps, versioned
 from infer.reporting.labels import fmt_count, fmt_value
 from infer.reporting.plots.claim_balance import claim_balance_figure
 from infer.reporting.plots.save import save_figures
@@ -38,11 +38,12 @@ def check_document(result) -> dict:
     Returns
     -------
     dict
-        ``{consistent, findings, implied}``; every finding with the computation behind it.
+        ``{schema_version, qhat_version, consistent, findings, implied}``; every finding
+        with the computation behind it (schema ``check`` of :mod:`infer.reporting.schemas`).
     """
-    return {"consistent": result.consistent,
-            "findings": [f.as_dict() for f in result.findings],
-            "implied": result.implied}
+    return versioned({"consistent": result.consistent,
+                      "findings": [f.as_dict() for f in result.findings],
+                      "implied": result.implied})
 
 
 def _claimed_lines(claim) -> list[str]:

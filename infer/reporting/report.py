@@ -7,10 +7,19 @@ from pathlib import Path
 
 from infer.reporting.folder import atomic_folder
 from infer.reporting.html import report_html
-from infer.reporting.jsonout import dumps
+from infer.reporting.jsonout import dumps, versioned
 from infer.reporting.markdown import report_markdown
 
-__all__ = ["write_report"]
+__all__ = ["estimate_document", "write_report"]
+
+
+def estimate_document(result) -> dict:
+    """The object of summary.json and of ``qhat estimate --json``.
+
+    ``result.summary`` with ``schema_version`` and ``qhat_version`` first (schema
+    ``estimate-summary`` of :mod:`infer.reporting.schemas`).
+    """
+    return versioned(result.summary)
 
 
 def write_report(result, out: Path, force: bool = False, timing: dict | None = None,
@@ -33,7 +42,8 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
 
     out = Path(out)
     with atomic_folder(out, force=force) as folder:
-        (folder / "summary.json").write_text(dumps(result.summary), encoding="utf-8")
+        (folder / "summary.json").write_text(dumps(estimate_document(result)),
+                                             encoding="utf-8")
         write_netcdf(result, folder / "posterior.nc", getattr(result, "log_prob", None))
         started = time.perf_counter()
         plots = plotter.write(result, folder) if plotter is not None else None
@@ -47,7 +57,7 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
         if timing is not None:
             timing = dict(timing, plot_seconds=time.perf_counter() - started,
                           plots_drawn_by=drawn_by)
-            (folder / "timing.json").write_text(dumps(timing), encoding="utf-8")
+            (folder / "timing.json").write_text(dumps(versioned(timing)), encoding="utf-8")
         text = report_markdown(result, plots, timing)
         (folder / "report.md").write_text(text, encoding="utf-8")
         images = {name: (folder / name).read_bytes() for name in plots.values()}

@@ -77,7 +77,9 @@ def test_batch_loci_csv_holds_no_formula(tmp_path, capsys):
         writer.writerows([name, 1, 1000, "1e-6"] for name in names)
     out = tmp_path / "out"
     status, printed, err = call_qhat(["batch", source, "--out", out, "--quiet"], capsys)
-    assert status == 0 and printed == "" and err == "", f"exit {status}: {err!r}"
+    # --quiet: no progress, the result line only (docs/command-line.md)
+    assert status == 0 and printed.startswith("qhat batch: 5 loci") and err == "", (
+        f"exit {status}: {printed!r} {err!r}")
     with open(out / "loci.csv", newline="") as handle:
         cells = [row["locus"] for row in csv.DictReader(handle)]
     want = ["'" + n if n[0] in "=+-@" else n for n in names]

@@ -21,7 +21,7 @@ def test_default_run_uses_the_shipped_scenarios_from_any_folder(tmp_path, monkey
     """From an empty folder, without --data, the demo runs the installed infer.data_demo."""
     seen = {}
 
-    def record(data, out, quiet):
+    def record(data, out, quiet, as_json=False):
         seen.update(data=data, names=sorted(p.name for p in data.iterdir()), out=out)
         return 0
 

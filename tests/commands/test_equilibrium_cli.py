@@ -135,15 +135,17 @@ def test_json_x_linked():
         f"q_hat {result['q_hat']} vs (2 q_female + q_male)/3 = {mean}")
 
 
-def test_json_no_equilibrium_is_null_with_regime():
+def test_json_no_equilibrium_is_nan_with_regime():
     """mu = 1e-2, s = 1e-3, h = 0.3: f(1) = s(1 - h + h·mu) - mu < 0 with h < 1/2, so the
-    quadratic has no root in (0, 1) (derived; docs/model.md, 'Autosomal equilibrium')."""
+    quadratic has no root in (0, 1) (derived; docs/model.md, 'Autosomal equilibrium').
+    A number without a value is written as the string "nan", never as null, which means
+    "does not apply" (docs/reports.md, 'JSON documents')."""
     done = equilibrium("--mu", "1e-2", "--s", "1e-3", "--h", "0.3", "--json")
     assert done.returncode == 0, f"no equilibrium is a result, not an error; {done}"
     result = json.loads(done.stdout)
-    assert result["q_hat"] is None and result["load"] is None, (
-        f"without an equilibrium q_hat and load must be null; got {result['q_hat']}, "
-        f"{result['load']}")
+    assert result["q_hat"] == "nan" and result["load"] == "nan", (
+        f'without an equilibrium q_hat and load must be "nan"; got {result["q_hat"]!r}, '
+        f"{result['load']!r}")
     assert "mutation overwhelms selection" in result["regime"], result["regime"]
     table = equilibrium("--mu", "1e-2", "--s", "1e-3", "--h", "0.3")
     assert "mutation overwhelms selection" in table.stdout, f"the table must say why; {table}"

@@ -1,5 +1,5 @@
 """``qhat estimate`` exit status 4 and its ``qhat: warning:`` lines (docs/command-line.md,
-'Exit status' and 'Progress and `--quiet`').
+'Exit status' and 'Progress, `-q/--quiet` and `--json`').
 
 The references are the documented contract and summary.json of the same run (its
 ``diagnostics.messages``): a study capped at 20 steps per ensemble cannot meet the

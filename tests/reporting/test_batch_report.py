@@ -137,8 +137,9 @@ def test_summary_document_keys_flags_and_files(made, tmp_path):
     out, _ = _written(report, tmp_path)
     document = batch_report.batch_document(report)
     assert list(document) == [
-        "caution", "command", "input", "model", "settings", "prior", "log_marginal_likelihood",
-        "expected_count", "flags", "medians_across_loci", "execution", "timings", "files"], (
+        "schema_version", "qhat_version", "caution", "command", "input", "model", "settings",
+        "prior", "log_marginal_likelihood", "expected_count", "flags", "medians_across_loci",
+        "execution", "files"], (
         f"summary.json keys {list(document)}: a change breaks readers of the file")
     assert sorted(document["files"]) == sorted(
             p.name for p in out.iterdir() if p.name != MARKER), (

@@ -224,7 +224,8 @@ def test_json_document_is_what_the_command_prints(tmp_path, capsys):
     printed = capsys.readouterr().out
     document = check_report.check_document(check_claim(claim))
     assert printed == dumps(document), "--json does not print check_document(result)"
-    assert list(json.loads(printed)) == ["consistent", "findings", "implied"], (
+    assert list(json.loads(printed)) == ["schema_version", "qhat_version", "consistent",
+                                         "findings", "implied"], (
         f"--json keys {list(json.loads(printed))}")
 
 

@@ -317,7 +317,8 @@ def test_cli_writes_the_report_folder(tmp_path, capsys):
     assert status == 0, printed.err
     names = sorted(p.name for p in out.iterdir())
     assert names == sorted([MARKER, "loci.csv", "medians.png", "observed_vs_expected.png",
-                            "prior.png", "report.html", "report.md", "summary.json"]), (
+                            "prior.png", "report.html", "report.md", "summary.json",
+                            "timing.json"]), (
         f"report folder holds {names}")
     sizes = {"medians.png": (440, 660), "observed_vs_expected.png": (550, 660),
              "prior.png": (440, 660)}
@@ -331,8 +332,9 @@ def test_cli_writes_the_report_folder(tmp_path, capsys):
     assert "not a clinical or genetic-counselling result" in summary["caution"], (
         f"caution {summary['caution']!r}")
     assert summary["prior"]["fitted"]["sigma"] > 0, f"fitted prior {summary['prior']['fitted']}"
-    assert summary["files"] == ["loci.csv", "summary.json", "report.md", "report.html",
-                                "medians.png", "observed_vs_expected.png", "prior.png"], (
+    assert summary["files"] == ["loci.csv", "summary.json", "timing.json", "report.md",
+                                "report.html", "medians.png", "observed_vs_expected.png",
+                                "prior.png"], (
         summary["files"])
     with open(out / "loci.csv", newline="") as handle:
         rows = list(csv.DictReader(handle))
@@ -362,8 +364,7 @@ def _close(a, b) -> bool:
 
 def _comparable(folder):
     summary = json.loads((Path(folder) / "summary.json").read_text())
-    for key in ("timings", "execution"):
-        summary.pop(key)
+    summary.pop("execution")
     summary["settings"].pop("chunk_size")
     return (Path(folder) / "loci.csv").read_bytes(), summary
 
@@ -490,7 +491,7 @@ def test_locus_names_never_become_paths(tmp_path):
     assert main(["batch", str(source), "--out", str(out), "--quiet"]) == 0, "odd names must run"
     assert sorted(p.name for p in tmp_path.iterdir()) == ["odd.csv", "out"], (
         f"a locus name became a path: {sorted(p.name for p in tmp_path.iterdir())}")
-    assert len(list(out.iterdir())) == 8, f"report holds {sorted(os.listdir(out))} (7 + {MARKER})"
+    assert len(list(out.iterdir())) == 9, f"report holds {sorted(os.listdir(out))} (8 + {MARKER})"
 
 
 def test_demo_file_is_the_documented_simulation(tmp_path):

@@ -516,7 +516,8 @@ def test_cli_inconsistent_json(tmp_path):
     ran = _qhat(bad, "--json")
     assert ran.returncode == 3, ran.stderr
     payload = json.loads(ran.stdout)
-    assert set(payload) == {"consistent", "findings", "implied"}, f"--json keys {sorted(payload)}"
+    assert set(payload) == {"schema_version", "qhat_version", "consistent", "findings",
+                            "implied"}, f"--json keys {sorted(payload)}"
     assert payload["consistent"] is False, "an inconsistent claim has consistent: false"
     assert {"severity", "code", "message", "details"} <= set(payload["findings"][0]), (
         f"finding keys {sorted(payload['findings'][0])}")
