@@ -14,7 +14,9 @@ folder on ``sys.path`` before it collects anything below it.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
+import io
 import os
 import subprocess
 import sys
@@ -141,3 +143,25 @@ def umask():
 
     yield set_umask
     os.umask(previous)
+
+
+class FakeTerminal(io.StringIO):
+    """A standard error that says it is a terminal, so progress would be drawn on it."""
+
+    def isatty(self):
+        return True
+
+
+def call_qhat_on_terminal(argv) -> tuple[int, str, str]:
+    """``qhat argv`` in this process: (status, stdout, stderr), stderr a fake terminal."""
+    from infer.cli import main
+
+    printed, terminal = io.StringIO(), FakeTerminal()
+    saved = sys.stderr
+    sys.stderr = terminal
+    try:
+        with contextlib.redirect_stdout(printed):
+            status = main([str(a) for a in argv])
+    finally:
+        sys.stderr = saved
+    return status, printed.getvalue(), terminal.getvalue()

@@ -15,18 +15,15 @@ docs/command-line.md, 'Progress, -q/--quiet and --json').
 
 from __future__ import annotations
 
-import contextlib
 import copy
 import importlib.metadata
-import io
 import json
 import math
-import sys
 import tomllib
 from pathlib import Path
 
 import pytest
-from conftest import DEMO, ROOT
+from conftest import DEMO, ROOT, call_qhat_on_terminal
 
 jsonschema = pytest.importorskip("jsonschema")
 
@@ -56,26 +53,7 @@ ensembles = 2
 CLAIM = DEMO / "claim-northholm-indirect.toml"
 
 
-class FakeTerminal(io.StringIO):
-    """A standard error that says it is a terminal, so progress would be drawn on it."""
-
-    def isatty(self):
-        return True
-
-
-def _run(argv) -> tuple[int, str, str]:
-    """``qhat argv`` in this process: (status, stdout, stderr), stderr a fake terminal."""
-    from infer.cli import main
-
-    printed, terminal = io.StringIO(), FakeTerminal()
-    saved = sys.stderr
-    sys.stderr = terminal
-    try:
-        with contextlib.redirect_stdout(printed):
-            status = main([str(a) for a in argv])
-    finally:
-        sys.stderr = saved
-    return status, printed.getvalue(), terminal.getvalue()
+_run = call_qhat_on_terminal
 
 
 def _loci(path: Path, rows: int = 40) -> Path:

@@ -100,23 +100,25 @@ def _fitted(fitted) -> dict | None:
 
 
 #: ignored column names that look like a mode of inheritance
-_MODE_COLUMNS = ("mode", "inheritance", "moi", "mode_of_inheritance", "dominance")
+_MODE_COLUMNS = ("inheritance", "moi", "mode_of_inheritance", "dominance")
 
 
 def batch_assumptions(table) -> list[str]:
     """What every s_het of the run assumes, with a warning when the file names modes.
 
     The h = 1/2 convention of s_het (:data:`infer.jobs.batch.summary.H_HALF_NOTE`); when
-    the loci file has a column that looks like a mode of inheritance (which qhat batch
-    does not read), a sentence saying that recessive loci there are analysed under h = 1/2.
+    the loci file has a column other than ``mode`` that looks like a mode of inheritance
+    (which qhat batch does not read), a sentence saying that recessive loci there are
+    analysed under h = 1/2 and how to have them flagged.
     """
     notes = [H_HALF_NOTE + "."]
     named = [c for c in table.ignored_columns
              if str(c).strip().lower().replace(" ", "_") in _MODE_COLUMNS]
     if named:
         notes.append(f"The column {', '.join(repr(c) for c in named)} is not read: loci "
-                     "marked recessive there are still analysed under h = 1/2; leave them "
-                     "out or estimate them with qhat estimate (h = 0).")
+                     "marked recessive there are still analysed under h = 1/2 and not "
+                     "flagged; name the column mode (dominant or recessive) to flag them, "
+                     "leave them out, or estimate them with qhat estimate (h = 0).")
     return notes
 
 

@@ -10,41 +10,20 @@ tests/test_json_schema.py, which also checks that ``-q`` leaves stderr empty.
 
 from __future__ import annotations
 
-import contextlib
 import io
 import json
 import re
-import sys
 import time
 
 import numpy as np
 import pytest
-from conftest import DEMO
+from conftest import DEMO, FakeTerminal, call_qhat_on_terminal
 
 from infer.commands import options
 from infer.commands.estimate import SamplingProgress, progress_printer
 
 
-class FakeTerminal(io.StringIO):
-    """A standard error that says it is a terminal."""
-
-    def isatty(self):
-        return True
-
-
-def _run(argv) -> tuple[int, str, str]:
-    """``qhat argv`` in this process with a fake-terminal stderr: (status, stdout, stderr)."""
-    from infer.cli import main
-
-    printed, terminal = io.StringIO(), FakeTerminal()
-    saved = sys.stderr
-    sys.stderr = terminal
-    try:
-        with contextlib.redirect_stdout(printed):
-            status = main([str(a) for a in argv])
-    finally:
-        sys.stderr = saved
-    return status, printed.getvalue(), terminal.getvalue()
+_run = call_qhat_on_terminal
 
 
 def _loci(path, rows: int = 40):

@@ -353,6 +353,9 @@ def seen_share(genetic_share, observation, params):
     """
     completeness = observation.ascertained("completeness", params)
     phenocopy = observation.ascertained("phenocopy", params)
+    if isinstance(completeness, float) and isinstance(phenocopy, float) \
+            and completeness == 1.0 and phenocopy == 0.0:
+        return genetic_share  # every affected birth seen, none non-heritable: no work
     return np.clip(completeness * (np.asarray(genetic_share, dtype=float) + phenocopy),
                    0.0, 1.0)
 

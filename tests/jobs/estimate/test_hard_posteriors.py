@@ -70,7 +70,15 @@ def _random_studies(text: str, count: int, seed: int):
     return [simulate_study(study, draw_truth(model, rng), rng) for _ in range(count)]
 
 
-@pytest.mark.parametrize("shape", ["ridge-3", "island-registry-h-free"])
+@pytest.mark.parametrize("shape", [
+    "ridge-3", "island-registry-h-free",
+    # known false alarm: a posterior piled against the support end (penetrance near 1)
+    # is called unverified although the sampled and exact 97.5 % points agree (0.998 and
+    # 0.998, P below 0.9756 against 0.975); the run then says "not converged", never
+    # "converged" beside the failed check (asserted first)
+    pytest.param("two-sources-penetrance-free", marks=pytest.mark.xfail(
+        strict=True, reason="verify_draws rejects agreeing tails at a support end")),
+])
 def test_random_three_parameter_studies_are_verified(shape):
     # Studies not written for the sampler: parameters drawn from the documented prior
     # ranges (log-uniform mu on 1e-8..1e-3, uniform s and h), data simulated at them.
@@ -78,6 +86,14 @@ def test_random_three_parameter_studies_are_verified(shape):
     # is never called converged beside a failed cross-check.
     if shape == "ridge-3":
         text = (STUDIES / "ridge-3.toml").read_text()
+    elif shape == "two-sources-penetrance-free":
+        # the Lowmark demo with s fixed and the penetrance free instead: mu, penetrance
+        # and completeness, a shape its demo was not written for
+        text = (DEMO / "lowmark-two-sources.toml").read_text()
+        text = text.replace('s  = { prior = "uniform", low = 0.0, high = 0.9 }', "s  = 0.5", 1)
+        text = text.replace("penetrance = 0.9 ",
+                            'penetrance = { prior = "uniform", low = 0.5, high = 1.0 } ', 1)
+        assert "s  = 0.5" in text and 'penetrance = { prior' in text, "the demo's lines moved"
     else:
         text = (DEMO / "island-dominant.toml").read_text().replace(
             "h  = 1.0 ", 'h  = { prior = "uniform", low = 0.0, high = 1.0 } ', 1)
