@@ -125,10 +125,25 @@ class ExactPosterior:
     _marginals: dict = field(default_factory=dict, repr=False)
     _priors: dict = field(default_factory=dict, repr=False)
 
+    def range_of(self, name: str) -> tuple[float, float]:
+        """Smallest and largest value ``name`` may take (its prior's range or grid)."""
+        if name in self._priors:
+            lower, upper = self._priors[name].quantile([0.0, 1.0])
+            return float(lower), float(upper)
+        return float(self.axes[name][0]), float(self.axes[name][-1])
+
     def cdf_at(self, name: str, value: float) -> float:
         """Marginal posterior probability that ``name`` is at most ``value``."""
         if name in self._marginals:
-            z = self._priors[name].to_unconstrained(np.array([float(value)]))
+            prior = self._priors[name]
+            lower, upper = self.range_of(name)
+            # at or past an end of the prior's range (the unconstrained map is +-inf
+            # or undefined there) all or none of the mass lies below
+            if value >= upper:
+                return 1.0
+            if value <= lower:
+                return 0.0
+            z = prior.to_unconstrained(np.array([float(value)]))
             return float(self._marginals[name].cdf(z)[0])
         return float(np.interp(value, self.axes[name], self.cdf[name], left=0.0, right=1.0))
 
@@ -252,13 +267,28 @@ def exact_posterior(model, interval: float = 0.95, points: int | None = None,
 def _quadrature_error(exact: ExactPosterior, name: str, key: str) -> float:
     """Probability the quadrature's remaining error at one quantile may span.
 
-    Three times the last relative move (which understates the remaining error: by up to
-    five times on the curved test ridges) of the quantile, read through the density.
+    Three times the quantile's own last move between refinement levels (which
+    understates the remaining error: by up to five times on the curved test ridges),
+    never less than 1e-5 of its scale, read through the density; one-sided where the
+    step would leave the parameter's range (a posterior piled against a support end).
+    Without two levels to compare, the largest relative move of any quantile is used.
     """
     q = exact.quantiles[name]
     scale = max(abs(q[key]), 0.01 * abs(q["upper"] - q["lower"]))
-    step = max(3.0 * float(exact.change), 1e-5) * scale
-    return abs(exact.cdf_at(name, q[key] + step) - exact.cdf_at(name, q[key] - step)) / 2
+    moves = [abs(new[1][name][key] - old[1][name][key])
+             for old, new in zip(exact.levels, exact.levels[1:])]
+    moves = [m for m in moves if m > 0]
+    if moves:
+        step = max(3.0 * moves[-1], 1e-5 * scale)
+    else:
+        change = float(exact.change) if np.isfinite(exact.change) else 0.0
+        step = max(3.0 * change, 1e-5) * scale
+    lower, upper = exact.range_of(name)
+    at = exact.cdf_at(name, q[key])
+    sides = [exact.cdf_at(name, q[key] + step) - at] if q[key] + step < upper else []
+    if q[key] - step > lower:
+        sides.append(at - exact.cdf_at(name, q[key] - step))
+    return float(np.mean(np.abs(sides))) if sides else 0.0
 
 
 def verify_draws(exact: ExactPosterior, chains_by_name: dict, interval: float,
