@@ -52,6 +52,11 @@ _HOMES = {
     "log_binomial_probability": ("infer.core.drift.stationary", "log_binomial_probability"),
     "probability_absent": ("infer.core.drift.stationary", "probability_absent"),
     "simulate": ("infer.core.wright_fisher", "wright_fisher"),
+    # forecasts
+    "forecast": ("infer.jobs.forecast.run", "forecast"),
+    # model comparison
+    "compare": ("infer.jobs.compare.run", "compare_models"),
+    "fitness_coefficients": ("infer.core.balance", "fitness_coefficients"),
     # errors
     "InputError": ("infer.errors", "InputError"),
 }

@@ -24,6 +24,9 @@ COMMANDS = {
     "check": "a reviewer's consistency check of published numbers (exit 3 if inconsistent)",
     "batch": "many loci at once: per-locus heterozygous selection from allele counts",
     "simulate": "Wright-Fisher forward simulation under the same life cycle",
+    "forecast": "allele frequency and incidence over the coming generations, per posterior draw",
+    "compare": "a study's data weighed under competing models (balance, heterozygote "
+               "advantage): evidences, Bayes factors",
     "demo": "run every invented scenario shipped with qhat and write their reports",
 }
 

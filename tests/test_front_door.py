@@ -48,6 +48,9 @@ HOMES = {
     "log_binomial_probability": "infer.core.drift.stationary:log_binomial_probability",
     "probability_absent": "infer.core.drift.stationary:probability_absent",
     "simulate": "infer.core.wright_fisher:wright_fisher",
+    "forecast": "infer.jobs.forecast.run:forecast",
+    "compare": "infer.jobs.compare.run:compare_models",   # issue 18
+    "fitness_coefficients": "infer.core.balance:fitness_coefficients",   # issue 18
     "InputError": "infer.errors:InputError",
 }
 #: defined by the face itself

@@ -65,7 +65,8 @@ def _loci(path: Path, rows: int = 40) -> Path:
 
 #: the runs of :func:`_commands` (a command, or a command and a case)
 RUNS = ("estimate", "check", "batch", "equilibrium", "equilibrium-x-linked",
-        "equilibrium-no-balance", "equilibrium-drift", "simulate", "demo")
+        "equilibrium-no-balance", "equilibrium-drift", "equilibrium-fitnesses", "simulate",
+        "forecast", "compare", "demo")
 
 
 def _commands(folder: Path) -> dict:
@@ -86,9 +87,15 @@ def _commands(folder: Path) -> dict:
                                    "equilibrium", 0),
         "equilibrium-drift": (["--mu", "1e-5", "--s", "0.1", "--h", "0.5", "--nu", "1e-8",
                                "--Ne", "1e4", "--sample", "1000"], "equilibrium", 0),
+        "equilibrium-fitnesses": (["--mu", "1e-6", "--w-AA", "0.98", "--w-Aa", "1",
+                                   "--w-aa", "0.95"], "equilibrium", 0),
+        "compare": ([study, "--out", folder / "compare"], "compare", 0),
         "simulate": (["--Ne", "50", "--mu", "1e-3", "--s", "0.1", "--h", "0.5", "--nu", "1e-4",
                       "--replicates", "20", "--generations", "400", "--seed", "1"],
                      "simulate", 0),
+        # reads the report of the "estimate" run above (the runs go in this order)
+        "forecast": ([folder / "estimate", "--generations", "5", "--set", "s=0", "--out",
+                      folder / "forecast"], "forecast", 0),
         "demo": (["--data", demo_data, "--out", folder / "demo"], "demo", 0),
     }
 
@@ -164,7 +171,7 @@ def test_json_output_validates_against_its_schema(runs, name):
 
 
 @pytest.mark.parametrize("name", ["estimate", "check", "batch", "equilibrium", "simulate",
-                                  "demo"])
+                                  "forecast", "demo"])
 def test_quiet_prints_nothing_on_stderr_for_a_clean_run(runs, name):
     """-q: no progress, results only; a clean run has no warning, so stderr stays empty
     although it is a terminal (where progress would be drawn)."""
@@ -182,6 +189,8 @@ def test_written_documents_validate_and_equal_the_printed_ones(runs):
         ("check", "check.json"): "check",
         ("batch", "summary.json"): "batch-summary",
         ("batch", "timing.json"): "timing",
+        ("forecast", "forecast.json"): "forecast",
+        ("compare", "compare.json"): "compare",
     }
     for (command, file), schema in written.items():
         document = json.loads((folder / command / file).read_text(encoding="utf-8"))
@@ -212,7 +221,7 @@ def test_schemas_refuse_a_changed_top_level(runs):
     """The schemas pin the top level: an unknown key, a missing key, a wrong type, a bare
     null for a number and another schema version are each refused."""
     _, found = runs
-    for name in ("estimate", "check", "batch", "equilibrium", "simulate", "demo"):
+    for name in ("estimate", "check", "batch", "equilibrium", "simulate", "forecast", "demo"):
         stdout, _, schema = found[name]
         document = json.loads(stdout)
         extra = dict(document, surprise=1)

@@ -260,6 +260,7 @@ def test_wheel_in_a_fresh_venv_runs_the_demo_from_an_empty_folder(built, tmp_pat
         path = Path(name)
         if path.suffix == ".toml":
             wanted = (("report.md", "check.json") if path.stem.startswith("claim-")
+                      else ("report.md", "compare.json") if path.stem.startswith("compare-")
                       else ("report.md", "summary.json", "posterior.nc"))
         elif path.suffix == ".csv":
             wanted = ("report.md", "summary.json", "loci.csv")

@@ -42,10 +42,14 @@ def shipped_scenarios():
 
 def _scenarios(data: Path) -> dict[str, list[Path]]:
     """Scenario files by job: study files, claim files, batch CSVs."""
-    studies, claims = [], []
+    studies, claims, comparisons = [], [], []
     for path in sorted(data.glob("*.toml")):
-        (claims if path.stem.startswith("claim-") else studies).append(path)
-    return {"estimate": studies, "check": claims, "batch": sorted(data.glob("*.csv"))}
+        if path.stem.startswith("compare-"):   # weighed by qhat compare
+            comparisons.append(path)
+        else:
+            (claims if path.stem.startswith("claim-") else studies).append(path)
+    return {"estimate": studies, "check": claims, "batch": sorted(data.glob("*.csv")),
+            "compare": comparisons}
 
 
 def _shown(path: Path) -> str:
@@ -95,19 +99,31 @@ def run(args) -> int:
 
 
 #: exit statuses that count as done, by job (3 = an inconsistent claim: a finding)
-DONE = {"estimate": (0,), "check": (0, 3), "batch": (0,)}
+DONE = {"estimate": (0,), "check": (0, 3), "batch": (0,), "forecast": (0,), "compare": (0,)}
+#: forecasts of demo estimate reports: study file -> options after the report folder.
+#: Varrow island's dominant skeletal disorder (invented): a treatment that restores the
+#: fertility of affected people, s = 0 from now on
+FORECASTS = {"island-dominant.toml": ["--generations", "20", "--set", "s=0"]}
 
 
 def _commands(jobs: dict[str, list[Path]], out: Path):
     """(job, scenario file, report folder, argument list) of every scenario, in run order."""
     from infer.reporting.folder import safe_name
 
-    extra = {"estimate": [], "check": [], "batch": ["--prior", "empirical"]}
-    for job in ("estimate", "check", "batch"):
+    extra = {"estimate": [], "check": [], "batch": ["--prior", "empirical"], "compare": []}
+    for job in ("estimate", "check", "batch", "compare"):
         for path in jobs[job]:
             target = out / safe_name(path.stem)
             yield job, path, target, [job, str(path), "--out", str(target), "--force",
                                       *extra[job]]
+        if job == "estimate":   # each forecast reads the report of its estimate
+            for path in jobs[job]:
+                if path.name in FORECASTS:
+                    report = out / safe_name(path.stem)
+                    target = report.parent / f"{report.name}-forecast"
+                    yield "forecast", path, target, [
+                        "forecast", str(report), *FORECASTS[path.name], "--out",
+                        str(target), "--force"]
 
 
 def _run_all(data: Path, out: Path, quiet: bool, as_json: bool = False) -> int:
@@ -128,7 +144,8 @@ def _run_all(data: Path, out: Path, quiet: bool, as_json: bool = False) -> int:
 
     runs, failures = [], 0
     for job, path, target, argv in _commands(jobs, out):
-        shown = f"qhat {job} {_shown(path)} --out {target}"
+        # argv[1] is the scenario file, or the report folder a forecast reads
+        shown = f"qhat {job} {_shown(Path(argv[1]))} --out {target}"
         if not as_json:
             print(f"== {shown}", flush=True)
         elif not quiet:

@@ -23,9 +23,16 @@ def add_arguments(parser) -> None:
     checks.accept_negative_numbers(parser)
     add = parser.add_argument
     add("--mu", required=True, metavar="M", help="mutation rate A->a per gamete per generation")
-    add("--s", required=True, metavar="S", help="selection coefficient against aa, in [0, 1] "
+    add("--s", metavar="S", help="selection coefficient against aa, in [0, 1] "
         "(0 only with --Ne: the neutral stationary distribution)")
-    add("--h", required=True, metavar="H", help="dominance coefficient, in [0, 1]")
+    add("--h", metavar="H", help="dominance coefficient: Aa has fitness 1 - hs; in [0, 1], "
+        "or (autosomal, no --Ne) h < 0 for a heterozygote fitter than both homozygotes "
+        "and h > 1 for one less fit than aa, with 1 - hs >= 0")
+    add("--w-AA", dest="w_AA", metavar="W", help="instead of --s and --h: the three "
+        "genotype fitnesses on any common scale (autosomal), w_aa < w_AA; mapped to "
+        "s = 1 - w_aa/w_AA, h = (1 - w_Aa/w_AA)/s")
+    add("--w-Aa", dest="w_Aa", metavar="W", help="heterozygote fitness (with --w-AA, --w-aa)")
+    add("--w-aa", dest="w_aa", metavar="W", help="fitness of aa (with --w-AA, --w-Aa)")
     add("--F", metavar="F", help="inbreeding coefficient, in [0, 1) (default 0)")
     add("--nu", metavar="NU", help="back mutation rate a->A, in [0, 1) (default 0)")
     add("--inheritance", default="autosomal", metavar="MODE",
@@ -56,6 +63,7 @@ def parse_options(args) -> dict:
         For the first bad option, naming it and its value (``--s: 1.5 is above 1``).
     """
     options = checks.equilibrium_options(args)
+    _fitness_options(args, options)
     if options["s"] == 0 and options["Ne"] is None:
         raise checks.option_error(
             "--s", f"{args.s} needs --Ne (and --nu > 0): without selection there is no "
@@ -69,15 +77,66 @@ def parse_options(args) -> dict:
     return options
 
 
-def _regime(exists: bool, q: float | None, nu: float, s: float) -> str:
+def _fitness_options(args, options: dict) -> None:
+    """--s and --h, or the three fitnesses; h outside [0, 1] only where it is built.
+
+    The fitnesses map onto qhat's scale AA = 1 (:func:`infer.core.balance.fitness_coefficients`).
+    """
+    given = [name for name in ("w_AA", "w_Aa", "w_aa") if getattr(args, name, None) is not None]
+    if given:
+        for name in ("s", "h"):
+            if options[name] is not None:
+                raise checks.option_error(f"--{name}", f"{getattr(args, name)}: give either "
+                                          "--s and --h or the three fitnesses, not both")
+        for name in ("w_AA", "w_Aa", "w_aa"):
+            if name not in given:
+                raise checks.option_error(f"--w-{name[2:]}", "missing: the fitnesses come "
+                                          "as three, --w-AA, --w-Aa and --w-aa")
+        w = {name: checks.number(getattr(args, name), f"--w-{name[2:]}", checks.Range(0.0))
+             for name in ("w_AA", "w_Aa", "w_aa")}
+        if w["w_AA"] == 0:
+            raise checks.option_error("--w-AA", f"{args.w_AA} must be above 0")
+        if w["w_aa"] >= w["w_AA"]:
+            raise checks.option_error(
+                "--w-aa", f"{args.w_aa} is not below --w-AA {args.w_AA}: qhat writes a for "
+                "the allele whose homozygote is less fit (swap the labels; equal "
+                "homozygotes leave h undefined on the scale 1, 1 - hs, 1 - s)")
+        options["s"] = (w["w_AA"] - w["w_aa"]) / w["w_AA"]
+        options["h"] = (w["w_AA"] - w["w_Aa"]) / (w["w_AA"] - w["w_aa"])
+        options["fitnesses"] = w
+    else:
+        for name in ("s", "h"):
+            if options[name] is None:
+                raise checks.option_error(f"--{name}", "missing: give --s and --h, or the "
+                                          "three fitnesses --w-AA, --w-Aa, --w-aa")
+    h, s = options["h"], options["s"]
+    if not 0.0 <= h <= 1.0:
+        if options["inheritance"] != "autosomal" or options["Ne"] is not None:
+            where = "--Ne" if options["inheritance"] == "autosomal" else "--inheritance"
+            raise checks.option_error(
+                "--h", f"{h:g} is outside [0, 1]; h < 0 and h > 1 are built for the "
+                f"autosomal deterministic balance only (not with {where})")
+        if h * s > 1.0:
+            raise checks.option_error(
+                "--h", f"{h:g} with s = {s:g} gives the heterozygote the fitness "
+                f"1 - hs = {1.0 - h * s:g}, below 0")
+
+
+def _regime(exists: bool, q: float | None, nu: float, s: float, h: float = 0.0) -> str:
     if s == 0:
         return "no selection: neutral balance of forward and back mutation, mu/(mu + nu)"
     if not exists:
         return ("no stable interior equilibrium: mutation overwhelms selection and the "
                 "deleterious allele goes to fixation")
+    if h < 0:
+        return ("heterozygote advantage: a balanced polymorphism held by the fitter "
+                "heterozygote (overdominance), with mutation")
     if q is not None and q > 0.5 and nu > 0:
         return ("mutation overwhelms selection: the deleterious allele is common, held "
                 "below fixation only by back mutation")
+    if h > 1:
+        return ("mutation-selection balance, the heterozygote less fit than aa "
+                "(underdominance)")
     return "mutation-selection balance"
 
 
@@ -95,8 +154,10 @@ def compute(options: dict) -> dict:
               "parameters": {"mu": mu, "s": s, "h": h, "F": F, "nu": nu,
                              "penetrance": penetrance}}
     if options["inheritance"] == "autosomal":
-        exact = balance.autosomal_balance(mu, s, h, F, nu)
+        exact = balance.autosomal_balance(mu, s, h, F, nu, any_dominance=True)
         exists, q = bool(exact.exists), float(exact.q_hat)
+        if "fitnesses" in options:
+            result["fitnesses"] = dict(options["fitnesses"])
         result.update(q_hat=q, exists=exists, mean_fitness=float(exact.mean_fitness),
                       load=float(exact.load))
         found = approximations.autosomal_approximations(mu, s, h, F)
@@ -125,7 +186,7 @@ def compute(options: dict) -> dict:
                     "recessive": penetrance * float(hom),
                     "x-linked-male": float(balance.affected_fraction(
                         "x-linked-male", q_male, penetrance=penetrance))}
-    result["regime"] = _regime(exists, q if exists else None, nu, s)
+    result["regime"] = _regime(exists, q if exists else None, nu, s, h)
     result["approximations"] = {
         name: {"value": float(a.value), "relative_error": float(a.relative_error),
                "in_range": bool(a.in_range), "formula": a.formula, "range_note": a.range_note}
@@ -181,9 +242,11 @@ def render_table(result: dict) -> str:
                  ("mutation load, daughters", result["load_female"]),
                  ("affected sons with a new maternal mutation", result["new_mutation_share"])]
     else:
+        load_label = ("genetic load (1 - mean fitness / heterozygote's)" if p["h"] < 0
+                      else "mutation load (1 - mean fitness)")
         rows += [("exact equilibrium q_hat", result["q_hat"]),
                  ("mean fitness", result["mean_fitness"]),
-                 ("mutation load (1 - mean fitness)", result["load"])]
+                 (load_label, result["load"])]
     width = max(len(r[0]) for r in rows) + 2
     lines += [f"{label:<{width}}{_format(value, 10)}" for label, value in rows]
     if math.isfinite(result["load"]) and p["mu"] > 0:

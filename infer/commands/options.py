@@ -232,7 +232,7 @@ def seed(value: Any, option: str = "--seed") -> int | None:
 EQUILIBRIUM_NUMBERS: dict[str, tuple[Range, float | None]] = {
     "mu": (Range(0.0, 1.0, high_open=True), None),
     "s": (Range(0.0, 1.0), None),  # s = 0 only with --Ne (commands/equilibrium.py)
-    "h": (Range(0.0, 1.0), None),
+    "h": (Range(), None),  # any finite h with 1 - hs >= 0 (commands/equilibrium.py)
     "F": (Range(0.0, 1.0, high_open=True), 0.0),
     "nu": (Range(0.0, 1.0, high_open=True), 0.0),
     "alpha": (Range(0.0, None, low_open=True), 1.0),
@@ -252,6 +252,9 @@ def equilibrium_options(args) -> dict:
     """
     options = {}
     for name, (accepted, default) in EQUILIBRIUM_NUMBERS.items():
+        if name in ("s", "h") and getattr(args, name, None) is None:
+            options[name] = None  # given as fitnesses (commands/equilibrium.py)
+            continue
         value = number(getattr(args, name, None), f"--{name}", accepted)
         options[name] = default if value is None else value
     inheritance = option_choice(args.inheritance, "--inheritance", INHERITANCES)
@@ -288,6 +291,7 @@ SIMULATE_NUMBERS = {
     "s": Range(0.0, 1.0),
     "h": Range(0.0, 1.0),
     "nu": Range(0.0, 1.0, high_open=True),
+    "q0": Range(0.0, 1.0),
     "replicates": Range(low=1, whole=True),
     "generations": Range(low=1, whole=True),
     "burn_in": Range(low=0, whole=True),

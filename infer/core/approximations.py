@@ -100,10 +100,12 @@ def autosomal_approximations(mu, s, h, F=0.0) -> dict[str, Approximation]:
     Returns
     -------
     dict of str to Approximation
-        Keys ``"mu/(hs)"``, ``"sqrt(mu/s)"``, ``"mu/(s(h(1-F)+F))"``, ``"quadratic"``.
+        Keys ``"mu/(hs)"``, ``"sqrt(mu/s)"``, ``"mu/(s(h(1-F)+F))"``, ``"quadratic"``;
+        where some h < 0 (heterozygote advantage) also ``"overdominant"``, and the four
+        rare-allele forms have no value there.
     """
     mu, s, h, F = (np.asarray(v, dtype=float) for v in (mu, s, h, F))
-    exact = autosomal_balance(mu, s, h, F)
+    exact = autosomal_balance(mu, s, h, F, any_dominance=True)
     q, exists = exact.q_hat, exact.exists
     one_f = 1.0 - F
     a = one_f * (1.0 - 2.0 * h) * s
@@ -122,7 +124,16 @@ def autosomal_approximations(mu, s, h, F=0.0) -> dict[str, Approximation]:
         quadratic_error = np.abs((a - a0) * quadratic + (b - hs)) / np.abs(
             2.0 * a0 * quadratic + hs
         )
-    return {
+    advantage = h < 0
+    if np.any(advantage):
+        # the rare-allele forms assume selection against a; with a fitter heterozygote
+        # they have no value (mu/(hs) < 0) and are never in range
+        never = np.where(advantage, np.inf, 0.0)
+        linear, recessive, inbred, quadratic = (
+            np.where(advantage, np.nan, v) for v in (linear, recessive, inbred, quadratic))
+        linear_error, recessive_error, inbred_error, quadratic_error = (
+            v + never for v in (linear_error, recessive_error, inbred_error, quadratic_error))
+    found = {
         "mu/(hs)": _finish(
             "mu/(hs)", "q = mu / (h s)", linear, linear_error, q, exists,
             "rare allele with partial dominance: needs h >> sqrt(mu/s) and F << h",
@@ -141,6 +152,31 @@ def autosomal_approximations(mu, s, h, F=0.0) -> dict[str, Approximation]:
             "rare allele, random mating: needs F small and q away from the fold (h > 1/2)",
         ),
     }
+    if np.any(advantage):
+        found["overdominant"] = _overdominant(mu, s, h, F, q, exists)
+    return found
+
+
+def _overdominant(mu, s, h, F, q, exists) -> Approximation:
+    """Fisher's (1922) balanced polymorphism, the mu = 0 root of the exact quadratic.
+
+    With mu = 0 the condition A q² + B q = mu of `autosomal_approximations` leaves
+    q0 = -B0/A, B0 = s(h(1-F) + F): t/(s' + t) in Fisher's scale at F = 0 (see
+    `infer.core.balance`). Its first-order error (derived): f(q0) = mu((1-F)hs q0 - 1)
+    and f'(q0) = A q0 + (1-F)hs mu ≈ -B0, so the error is about
+    mu |1 - (1-F)hs q0| / (|B0| q0). Only h < 0 with B0 < 0 has a value.
+    """
+    one_f = 1.0 - F
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        b0 = s * (h * one_f + F)
+        a = one_f * (1.0 - 2.0 * h) * s
+        q0 = np.where((h < 0) & (b0 < 0), -b0 / a, np.nan)
+        error = mu * np.abs(1.0 - one_f * h * s * q0) / (np.abs(b0) * q0)
+    return _finish(
+        "overdominant", "q = -(h(1-F) + F) / ((1-F)(1-2h)) = t/(s'+t) at F = 0 (Fisher 1922)",
+        q0, error, q, exists,
+        "heterozygote advantage (h < 0): needs mu << |h(1-F) + F| s q",
+    )
 
 
 def x_linked_approximations(mu, s, h, alpha=1.0) -> dict[str, Approximation]:

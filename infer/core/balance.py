@@ -10,6 +10,17 @@ values outside the model's domain (mu outside [0, 1), s outside [0, 1], h outsid
 [0, 1], F or nu outside [0, 1), alpha <= 0, NaN) give NaN with ``exists = False``;
 user-facing validation lives in the commands.
 
+General genotype fitness (autosomal, ``any_dominance=True``): h may be any finite number
+with 1 - hs >= 0. h < 0 is heterozygote advantage (Aa fitter than both homozygotes:
+overdominance), h > 1 a heterozygote less fit than aa (underdominance relative to aa).
+Fitnesses given directly map onto this scale by dividing by w_AA
+(:func:`fitness_coefficients`): s = 1 - w_aa/w_AA, h = (1 - w_Aa/w_AA)/s, which needs
+w_aa < w_AA (a is the less fit homozygote). Fisher's (1922, "On the dominance ratio",
+Proc. Roy. Soc. Edinburgh 42:321) overdominance w_AA = 1 - t, w_Aa = 1, w_aa = 1 - s'
+(s' > t) is s = (s' - t)/(1 - t), h = -t/(s' - t) < 0, and its balanced polymorphism
+q = t/(s' + t) is the mu -> 0 limit of the stable root below (derived in
+``_closed_form_root``).
+
 Stability of the equilibria returned: write the recursion as q' = q + g(q). The
 functions solved below, G, satisfy g(q) = -G(q) / w (w > 0), with G(0) = -mu < 0, so the
 frequency rises while G < 0. The smallest root of G in (0, 1) at which G changes sign
@@ -46,6 +57,7 @@ __all__ = [
     "daughter_genotype_frequencies",
     "affected_fraction",
     "load",
+    "fitness_coefficients",
     "AFFECTED_MODES",
 ]
 
@@ -67,7 +79,10 @@ class AutosomalBalance:
     mean_fitness : numpy.ndarray
         Mean fitness among zygotes at ``q_hat`` (AA = 1): 1 - s(h*Aa + aa).
     load : numpy.ndarray
-        Mutation load, 1 - mean_fitness.
+        Genetic load relative to the fittest genotype, 1 - mean_fitness / w_max: the
+        mutation load 1 - mean_fitness for 0 <= h (AA fittest); for h < 0 the
+        heterozygote (fitness 1 - hs) is fittest and the load includes the segregational
+        load of the balanced polymorphism (s't/(s' + t) in Fisher's scale at mu = 0).
     """
 
     q_hat: np.ndarray
@@ -131,7 +146,11 @@ def affected_fraction(mode, q, F=0.0, penetrance=1.0):
 
 
 def load(q, s, h, F=0.0):
-    """Mutation load among zygotes, 1 - w̄ = s(h Aa + aa), evaluated without cancellation.
+    """Genetic load among zygotes, 1 - w̄/w_max, evaluated without cancellation.
+
+    For h >= 0 the fittest genotype is AA (w_max = 1) and the load is
+    1 - w̄ = s(h Aa + aa). For h < 0 it is the heterozygote, w_max = 1 - hs = 1 - k, and
+    w_max - w̄ = -k AA + (s - k) aa (both terms >= 0), so the load is that over 1 - k.
 
     Parameters
     ----------
@@ -144,7 +163,43 @@ def load(q, s, h, F=0.0):
     """
     q, s, h, F = (np.asarray(v, dtype=float) for v in (q, s, h, F))
     one_f = 1.0 - F
-    return s * q * (2.0 * h * (1.0 - q) * one_f + q * one_f + F)
+    value = s * q * (2.0 * h * (1.0 - q) * one_f + q * one_f + F)
+    if np.any(h < 0):
+        value = np.where(h < 0, _overdominant_load(q, s, h * s, F), value)
+    return value
+
+
+def _overdominant_load(q, s, k, F):
+    """1 - w̄/(1 - k) for a fitter heterozygote (k = hs < 0): (-k AA + (s - k) aa)/(1 - k)."""
+    homozygote_a, _, homozygote_aa = genotype_frequencies(q, F)
+    return (-k * homozygote_a + (s - k) * homozygote_aa) / (1.0 - k)
+
+
+def fitness_coefficients(w_AA, w_Aa, w_aa):
+    """The (s, h) of three genotype fitnesses, on qhat's scale AA = 1.
+
+    Dividing by w_AA: 1 - hs = w_Aa / w_AA and 1 - s = w_aa / w_AA, so
+    s = 1 - w_aa / w_AA and h = (1 - w_Aa / w_AA) / s. Fisher's (1922) overdominance
+    w_AA = 1 - t, w_Aa = 1, w_aa = 1 - s' gives s = (s' - t)/(1 - t) and
+    h = -t/(s' - t).
+
+    Parameters
+    ----------
+    w_AA, w_Aa, w_aa : array_like
+        Fitnesses (any common scale), w_AA > 0, w_Aa >= 0, 0 <= w_aa < w_AA.
+
+    Returns
+    -------
+    tuple of numpy.ndarray
+        ``(s, h)``; NaN where the fitnesses are outside that domain (equal homozygotes
+        leave h undefined: s = 0).
+    """
+    w_AA, w_Aa, w_aa = (np.asarray(v, dtype=float) for v in (w_AA, w_Aa, w_aa))
+    ok = (w_AA > 0) & (w_Aa >= 0) & (w_aa >= 0) & (w_aa < w_AA)
+    with np.errstate(all="ignore"):
+        s = (w_AA - w_aa) / w_AA
+        h = (w_AA - w_Aa) / (w_AA - w_aa)
+    return np.where(ok, s, np.nan), np.where(ok, h, np.nan)
 
 
 def _closed_form_root(mu, s, h, F):
@@ -171,6 +226,14 @@ def _closed_form_root(mu, s, h, F):
     unstable threshold below the absorbing q = 1; a negative discriminant means both
     have merged and vanished: mutation overwhelms selection. At the root,
     w̄ = (1-mu)(1 - (1-F)hs q) (substitute f = 0).
+
+    h < 0 (heterozygote advantage): a > 0, and the product of the roots -mu/a < 0
+    leaves exactly one positive root, stable as f rises through it. b can be negative
+    (when the advantage outweighs inbreeding, -(1-F)h > F); that root is then written
+    (-b + sqrt(b² + 4a mu)) / (2a), again free of cancellation. As mu -> 0 it tends
+    to -b/a = -((1-F)h + F)/((1-F)(1-2h)); at F = 0 with Fisher's fitnesses
+    (s = (s'-t)/(1-t), hs = -t/(1-t)) that is t/(s' + t). h > 1 (the heterozygote
+    below aa, hs <= 1) is the a < 0 case above: the small stable root near mu/(hs).
     """
     one_f = 1.0 - F
     a = one_f * (1.0 - 2.0 * h) * s
@@ -178,14 +241,24 @@ def _closed_form_root(mu, s, h, F):
     with np.errstate(invalid="ignore", divide="ignore"):
         disc = b * b + 4.0 * a * mu
         root = (2.0 * mu) / (b + np.sqrt(disc))
+        negative_b = b < 0
+        if np.any(negative_b):
+            # h < 0 (a > 0, b may be < 0): then -b + sqrt(disc) adds two positive terms
+            root = np.where(negative_b, (np.sqrt(disc) - b) / (2.0 * a), root)
     # The smaller root lies in (0, 1) iff f(1) > 0, or both roots lie below 1 (h > 1/2
     # with the vertex -b/(2a) below 1); tested on f itself, not on the rounded root.
-    f_one = s * (one_f * (1.0 - h + h * mu) + F) - mu
+    with np.errstate(invalid="ignore"):
+        f_one = s * (one_f * (1.0 - h + h * mu) + F) - mu
     exists = (disc > 0) & (root < 1.0) & ((f_one > 0) | ((a < 0) & (b < -2.0 * a)))
-    # mu = 0: the loss boundary q = 0 is the equilibrium whenever selection acts.
+    # mu = 0: the loss boundary q = 0 is the equilibrium whenever selection acts, unless
+    # the heterozygote's advantage makes it unstable (b < 0): then f(q)/q = aq + b gives
+    # the balanced polymorphism -b/a (Fisher's t/(s' + t) at F = 0).
     if not np.all(mu):
-        exists |= (mu == 0) & (s > 0)
-        root = np.where(mu == 0, 0.0, root)
+        zero = mu == 0
+        with np.errstate(invalid="ignore", divide="ignore"):
+            balanced = zero & negative_b
+            exists = np.where(zero, (s > 0) & (~balanced | (-b < a)), exists)
+            root = np.where(zero, np.where(balanced, -b / a, 0.0), root)
     return root, exists
 
 
@@ -248,10 +321,30 @@ def _autosomal_cubic_root(mu, s, h, F, nu):
     exists = (root > 0) & (root < 1)
     exists |= (mu == 0)
     root = np.where(mu == 0, 0.0, root)
+    if not np.all(mu):
+        root = _balanced_without_mutation(root, mu, a, b, nu, k0, k1)
     return root, exists
 
 
-def autosomal_balance(mu, s, h, F=0.0, nu=0.0) -> AutosomalBalance:
+def _balanced_without_mutation(root, mu, a, b, nu, k0, k1):
+    """Return the interior root at mu = 0, nu > 0 where the heterozygote's advantage repels q = 0.
+
+    G(q)/q = g(q) = -a q² + (a - b - nu k1) q + b + nu(1 - k0). q = 0 is stable iff
+    g(0) >= 0; otherwise (only possible for h < 0, a > 0) g(0) < 0 <= g(1) = nu(1 - s),
+    and the stable root is the smaller root of the concave g, written
+    -2 g(0) / (A1 + sqrt(A1² + 4a g(0))) with A1 = a - b - nu k1.
+    """
+    g0 = b + nu * (1.0 - k0)
+    repelled = (mu == 0) & (g0 < 0)
+    if not np.any(repelled):
+        return root
+    a1 = a - b - nu * k1
+    with np.errstate(invalid="ignore", divide="ignore"):
+        interior = -2.0 * g0 / (a1 + np.sqrt(a1 * a1 + 4.0 * a * g0))
+    return np.where(repelled, interior, root)
+
+
+def autosomal_balance(mu, s, h, F=0.0, nu=0.0, *, any_dominance=False) -> AutosomalBalance:
     """Exact autosomal mutation-selection equilibrium.
 
     Parameters
@@ -261,11 +354,15 @@ def autosomal_balance(mu, s, h, F=0.0, nu=0.0) -> AutosomalBalance:
     s : array_like
         Selection coefficient against aa, in [0, 1].
     h : array_like
-        Dominance coefficient, in [0, 1] (Aa fitness 1 - hs).
+        Dominance coefficient, in [0, 1] (Aa fitness 1 - hs); with ``any_dominance``
+        any finite h with 1 - hs >= 0 (h < 0: heterozygote advantage; h > 1: the
+        heterozygote less fit than aa).
     F : array_like, optional
         Inbreeding coefficient, in [0, 1) (default 0).
     nu : array_like, optional
         Back mutation rate a -> A, in [0, 1) (default 0).
+    any_dominance : bool, optional
+        Accept h outside [0, 1] (default False: such rows give NaN, as before).
 
     Returns
     -------
@@ -282,13 +379,22 @@ def autosomal_balance(mu, s, h, F=0.0, nu=0.0) -> AutosomalBalance:
     0.0031622...
     """
     (mu, s, h, F, nu), shape = _as_float(mu, s, h, F, nu)
-    valid = _valid(mu, s, h, F, nu)
+    valid = _valid(mu, s, h, F, nu, any_dominance)
     if not np.any(nu):
         root, exists = _closed_form_root(mu, s, h, F)
         exists = np.broadcast_to(exists & valid, shape)
         q = np.broadcast_to(np.where(exists, root, np.nan), shape)
         # 1 - w̄ = mu + (1-mu)(1-F)hs q̂ at the nu = 0 equilibrium (no cancellation).
         genetic_load = mu + (1.0 - mu) * ((1.0 - F) * h * s) * q
+        if any_dominance and np.any(h < 0):
+            # relative to the fittest genotype, the heterozygote (see ``load``)
+            with np.errstate(invalid="ignore"):
+                genetic_load = np.where(h < 0, _overdominant_load(q, s, h * s, F),
+                                        genetic_load)
+            return AutosomalBalance(
+                q_hat=q, exists=exists,
+                mean_fitness=1.0 - s * q * (2.0 * h * (1.0 - q) * (1.0 - F) + q * (1.0 - F) + F),
+                load=genetic_load)
         return AutosomalBalance(
             q_hat=q, exists=exists, mean_fitness=1.0 - genetic_load, load=genetic_load
         )
@@ -311,17 +417,20 @@ def autosomal_balance(mu, s, h, F=0.0, nu=0.0) -> AutosomalBalance:
     exists = exists & valid
     q = np.where(exists, root, np.nan)
     genetic_load = load(q, s, h, F)
+    one_f = 1.0 - F
+    mean_fitness = (1.0 - genetic_load if not np.any(h < 0) else
+                    1.0 - s * q * (2.0 * h * (1.0 - q) * one_f + q * one_f + F))
     return AutosomalBalance(
-        q_hat=q, exists=exists, mean_fitness=1.0 - genetic_load, load=genetic_load
+        q_hat=q, exists=exists, mean_fitness=mean_fitness, load=genetic_load
     )
 
 
-def q_hat(mu, s, h, F=0.0, nu=0.0) -> np.ndarray:
+def q_hat(mu, s, h, F=0.0, nu=0.0, *, any_dominance=False) -> np.ndarray:
     """Exact autosomal equilibrium frequency; shorthand for ``autosomal_balance(...).q_hat``.
 
     Parameters
     ----------
-    mu, s, h, F, nu : array_like
+    mu, s, h, F, nu, any_dominance : array_like
         As in `autosomal_balance`.
 
     Returns
@@ -329,7 +438,7 @@ def q_hat(mu, s, h, F=0.0, nu=0.0) -> np.ndarray:
     numpy.ndarray
         Stable interior equilibrium among zygotes, NaN where none.
     """
-    return autosomal_balance(mu, s, h, F, nu).q_hat
+    return autosomal_balance(mu, s, h, F, nu, any_dominance=any_dominance).q_hat
 
 
 # The X-linked equilibrium lives in its own module; re-exported here so that

@@ -18,12 +18,20 @@ def _as_float(*values):
     return arrays, np.broadcast_shapes(*(a.shape for a in arrays))
 
 
-def _valid(mu, s, h, F, nu):
+def _valid(mu, s, h, F, nu, any_dominance=False):
     """Boolean mask of parameter vectors inside the model's domain (NaN is outside).
 
     Checked first with one min/max pass per array (cheap); the element-wise mask is
-    only built when some value falls outside.
+    only built when some value falls outside. With ``any_dominance`` a finite h outside
+    [0, 1] is inside too, as long as the heterozygote's fitness 1 - hs is not negative
+    (the autosomal general-fitness domain of :mod:`infer.core.balance`).
     """
+    if any_dominance and not (h.size and h.min() >= 0 and h.max() <= 1):
+        with np.errstate(invalid="ignore"):
+            h_inside = np.isfinite(h) & (h * s <= 1.0)
+        if not np.all(h_inside):
+            return _valid(mu, s, np.zeros_like(h), F, nu) & h_inside
+        return _valid(mu, s, np.clip(h, 0.0, 1.0), F, nu)
     closed = ((s, 1.0), (h, 1.0))
     half_open = ((mu, 1.0), (F, 1.0), (nu, 1.0))
     try:

@@ -33,6 +33,7 @@ A study file::
 
 from __future__ import annotations
 
+import math
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -41,9 +42,10 @@ from typing import Any
 import numpy as np
 
 from infer.core.choices import INHERITANCES, MODELS
-from infer.core.supports import ASCERTAINMENT
+from infer.core.supports import ASCERTAINMENT, NAMED_COMPLETENESS, SEX_SELECTION
 from infer.core.x_linked import germ_line_rate_problem
 from infer.errors import InputError
+from infer.files.history import HISTORY_PARAMETERS, history_document, parse_history
 from infer.files.reading import invalid_toml, read_text
 from infer.model.balance_state import BalanceState
 from infer.model.observations.base import Observation
@@ -53,7 +55,9 @@ from infer.model.priors.parsing import (
     PARAMETERS,
     Fixed,
     Prior,
+    SexAverage,
     defaults_for,
+    is_placeholder,
     parse_parameter,
 )
 from infer.validate import (
@@ -88,6 +92,8 @@ __all__ = [
 
 TOP_LEVEL_KEYS = (
     "title", "inheritance", "model", "interval", "parameters", "observations", "sampler",
+    "history",
+    "compare",  # read by qhat compare only (infer/files/compare_table.py)
 )
 SAMPLER_KEYS = ("seed", "walkers", "max_steps", "ensembles")
 #: the sampler's defaults (infer.inference.sampling.SamplerSettings) for the memory estimate
@@ -126,6 +132,10 @@ class Study:
         ``[sampler] seed``.
     sampler : dict
         The validated ``[sampler]`` settings as given (seed included).
+    history : infer.core.history.spec.History or None
+        The ``[history]`` (infer/files/history.py); None: the population is at equilibrium.
+    sampled : dict of str to int
+        Observation label -> generations ago it was sampled (absent: today).
     """
 
     path: str
@@ -138,20 +148,29 @@ class Study:
     observations: list[Observation]
     seed: int | None = None
     sampler: dict = field(default_factory=dict)
+    history: Any = None
+    sampled: dict = field(default_factory=dict)
 
     def __post_init__(self):
         # each observation reads the study's penetrance, completeness and phenocopy
         # unless its own table fixes them
+        ascertainment = (*ASCERTAINMENT, *self.named_completeness)
         fixed = {name: float(value.value) for name, value in self.parameters.items()
-                 if name in ASCERTAINMENT and isinstance(value, Fixed)}
-        free = [name for name in ASCERTAINMENT if isinstance(self.parameters.get(name), Prior)]
+                 if name in ascertainment and isinstance(value, Fixed)}
+        free = [name for name in ascertainment if isinstance(self.parameters.get(name), Prior)]
         for observation in self.observations:
             observation.bind_ascertainment(fixed, free)
 
     @property
     def free(self) -> list[str]:
         """Names of the parameters with a prior, in canonical order."""
-        return [name for name in PARAMETERS if isinstance(self.parameters[name], Prior)]
+        return [name for name in (*PARAMETERS, *HISTORY_PARAMETERS, *self.named_completeness)
+                if isinstance(self.parameters.get(name), Prior)]
+
+    @property
+    def named_completeness(self) -> list[str]:
+        """Registries' own completeness parameters (``completeness_<tag>``), in file order."""
+        return [name for name in self.parameters if NAMED_COMPLETENESS.fullmatch(name)]
 
     @property
     def reported_parameters(self) -> list[str]:
@@ -161,8 +180,16 @@ class Study:
         phenocopy) only when the file gives it or an observation reads it.
         """
         read = {name for obs in self.observations for name in obs.ascertainment}
-        return [name for name in PARAMETERS if name not in ASCERTAINMENT
-                or name in read or name not in self.defaulted]
+        return [name for name in PARAMETERS
+                if not is_placeholder(self.parameters[name])
+                and (name not in ASCERTAINMENT or name in read or name not in self.defaulted)
+                ] + [name for name in HISTORY_PARAMETERS if name in self.parameters
+                     ] + self.named_completeness
+
+    @property
+    def sex_specific(self) -> bool:
+        """Selection differs between the sexes (s_male and s_female given; s their mean)."""
+        return isinstance(self.parameters["s"], SexAverage)
 
     @property
     def fixed(self) -> dict[str, float]:
@@ -171,7 +198,10 @@ class Study:
             name: self.parameters[name].value
             for name in PARAMETERS
             if isinstance(self.parameters[name], Fixed)
-        }
+            and not is_placeholder(self.parameters[name])
+        } | {name: self.parameters[name].value
+             for name in (*HISTORY_PARAMETERS, *self.named_completeness)
+             if isinstance(self.parameters.get(name), Fixed)}
 
 
 def study_document(study: Study) -> dict:
@@ -190,11 +220,14 @@ def study_document(study: Study) -> dict:
             name: spec.as_dict() if isinstance(spec, Prior) else spec.value
             for name, spec in study.parameters.items()
             if not (study.model == "deterministic" and name == "Ne")
+            and not is_placeholder(spec)
         },
         "observations": [observation.as_table() for observation in study.observations],
     }
     if study.sampler:
         document["sampler"] = dict(study.sampler)
+    if study.history is not None:
+        document["history"] = history_document(study.history, study.sampled)
     return document
 
 
@@ -304,8 +337,21 @@ def _parse(document: Any, source: str, require_free: bool) -> Study:
     parameters, defaulted = _parse_parameters(document.get("parameters", {}), model, inheritance)
     observations = _parse_observations(document.get("observations"), inheritance)
     _check_observations_fit(observations, parameters, model, require_free)
+    _check_named_completeness(observations, parameters)
 
-    free = [name for name in PARAMETERS if isinstance(parameters[name], Prior)]
+    history, sampled = None, {}
+    if "history" in document:
+        history, sampled = parse_history(
+            document["history"], model=model, inheritance=inheritance, parameters=parameters,
+            labels=[o.label for o in observations],
+            ne_given="Ne" in document.get("parameters", {}))
+    else:
+        for name in HISTORY_PARAMETERS:
+            if name in parameters:
+                raise InputError(f"{name} is read only by a [history]; this study has none",
+                                 field=f"parameters.{name}")
+    free = [name for name in (*PARAMETERS, *HISTORY_PARAMETERS, *_named(parameters))
+            if isinstance(parameters.get(name), Prior)]
     if require_free and not free:
         raise InputError(
             "no free parameter to estimate: every parameter is fixed", field="parameters"
@@ -323,6 +369,8 @@ def _parse(document: Any, source: str, require_free: bool) -> Study:
         observations=observations,
         seed=sampler.get("seed"),
         sampler=sampler,
+        history=history,
+        sampled=sampled,
     )
     _check_prior_support(study)
     return study
@@ -366,11 +414,90 @@ def _parse_parameters(table: Any, model: str, inheritance: str):
             'by inheritance = "x-linked"',
             field="parameters.alpha",
         )
+    _check_sex_selection(given, model, inheritance)
+    _check_general_dominance(given.get("h"), model, inheritance)
+    if "s_male" in given:
+        given["s"] = SexAverage("s", math.nan)
     parameters = {name: given.get(name, defaults.get(name)) for name in PARAMETERS}
+    parameters.update({name: given[name] for name in HISTORY_PARAMETERS if name in given})
+    # a registry's own completeness, after the life-cycle parameters, in the file's order
+    parameters.update({name: given[name] for name in _named(given)})
     defaulted = {name for name in PARAMETERS if name not in given}
     if inheritance == "x-linked":
         check_germ_line_rates(parameters)
     return parameters, defaulted
+
+
+def _named(parameters: dict) -> list[str]:
+    return [name for name in parameters if NAMED_COMPLETENESS.fullmatch(name)]
+
+
+def _check_named_completeness(observations, parameters: dict) -> None:
+    """Every named completeness is declared in [parameters] and read by an observation.
+
+    ``completeness = "completeness_<tag>"`` in a count names the parameter.
+    """
+    read = set()
+    for index, observation in enumerate(observations, start=1):
+        name = getattr(observation, "completeness", None)
+        if isinstance(name, str):
+            if name not in parameters:
+                raise InputError(
+                    f'"{name}" is not in [parameters]; declare it there (a number or a prior, '
+                    'e.g. { prior = "beta", a = 8, b = 2 })',
+                    field=f"observations[{index}].completeness")
+            read.add(name)
+    for name in _named(parameters):
+        if name not in read:
+            raise InputError(f"no observation reads it; name it in a registry's table as "
+                             f'completeness = "{name}"', field=f"parameters.{name}")
+
+
+def _check_sex_selection(given: dict, model: str, inheritance: str) -> None:
+    """s_male and s_female come as a pair, in place of s, for an autosomal locus."""
+    named = [name for name in SEX_SELECTION if name in given]
+    if not named:
+        return
+    field = f"parameters.{named[0]}"
+    if len(named) == 1:
+        other = "s_female" if named[0] == "s_male" else "s_male"
+        raise InputError(f"given without {other}; sex-specific selection needs both "
+                         "s_male and s_female (or neither, for one s)", field=field)
+    if "s" in given:
+        raise InputError("given with s; write s_male and s_female in place of s (s is "
+                         "then their mean) or s alone", field="parameters.s")
+    if inheritance != "autosomal":
+        raise InputError(f'inheritance is "{inheritance}"; sex-specific selection is for '
+                         "autosomal loci (an x-linked locus has s for hemizygous males and "
+                         "h for carrier females)", field=field)
+    if model != "deterministic":
+        raise InputError(f'model is "{model}"; sex-specific selection needs the '
+                         'deterministic model (Wright\'s density has one s)', field=field)
+    for name in SEX_SELECTION:
+        spec = given[name]
+        if isinstance(spec, Fixed) and spec.value == 0 and all(
+                isinstance(given[other], Fixed) and given[other].value == 0
+                for other in SEX_SELECTION):
+            raise InputError("0 in both sexes: no selection to balance mutation",
+                             field=f"parameters.{name}")
+
+
+def _check_general_dominance(h, model: str, inheritance: str) -> None:
+    """Refuse h outside [0, 1] (heterozygote advantage, Aa below aa) elsewhere.
+
+    General genotype fitness is built for the autosomal deterministic balance only
+    (infer.core.balance).
+    """
+    if h is None or (model == "deterministic" and inheritance == "autosomal"):
+        return
+    low, high = (h.value, h.value) if isinstance(h, Fixed) else h.interval(1.0)
+    if low < 0 or high > 1:
+        shown = h.describe() if isinstance(h, Prior) else _fmt(h.value)
+        raise InputError(
+            f"{shown} reaches outside [0, 1]: h < 0 and h > 1 are built for the autosomal "
+            f'deterministic model only (this study is {inheritance}, model "{model}")',
+            field="parameters.h",
+        )
 
 
 def check_germ_line_rates(parameters: dict) -> None:
@@ -427,6 +554,9 @@ def _check_observations_fit(observations, parameters, model, require_free=True) 
             continue
         where = f"observations[{index}].parameter"
         name = observation.parameter
+        if name not in parameters:
+            raise InputError(f'"{name}" is not in [parameters]; declare it there with a '
+                             "prior for an outside estimate of it to inform it", field=where)
         if name == "Ne" and model != "drift":
             raise InputError(
                 '"Ne": the deterministic model has no Ne; use model = "drift"', field=where
@@ -537,14 +667,16 @@ def _check_prior_support(study: Study) -> None:
         for name, spec in study.parameters.items()
     }
     with np.errstate(all="ignore"):
-        if study.model == "drift":
+        # frequency kinds under a history see its frequency (infer.model.posterior)
+        skip_frequency = study.model == "drift" or study.history is not None
+        if skip_frequency:
             state = BalanceState.without_frequency(params, study.inheritance)
         else:
             state = BalanceState.deterministic(params, study.inheritance)
         total = np.zeros(n)
         checked = False
         for index, observation in enumerate(study.observations, start=1):
-            if study.model == "drift" and observation.depends_on_frequency:
+            if skip_frequency and observation.depends_on_frequency:
                 continue
             ll = observation.log_likelihood(state)
             if not np.isfinite(ll).any():

@@ -276,7 +276,7 @@ def _quadrature_error(exact: ExactPosterior, name: str, key: str) -> float:
     q = exact.quantiles[name]
     scale = max(abs(q[key]), 0.01 * abs(q["upper"] - q["lower"]))
     moves = [abs(new[1][name][key] - old[1][name][key])
-             for old, new in zip(exact.levels, exact.levels[1:])]
+             for old, new in zip(exact.levels, exact.levels[1:], strict=False)]
     moves = [m for m in moves if m > 0]
     if moves:
         step = max(3.0 * moves[-1], 1e-5 * scale)

@@ -488,6 +488,7 @@ def level(model, j, order, t, middle, inner, n):
             break
         grid.repair()
     marginal = Marginal(t, grid.density)
+    marginal.log_total = grid.log_total  # log of the whole integral (the evidence)
     new_middle, new_inner = grid.tables()
     _, sd = marginal.moments()
     ends = marginal.f[[0, -1]] * sd > _FACE

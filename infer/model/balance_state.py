@@ -13,11 +13,11 @@ from typing import Any
 import numpy as np
 
 from infer.core.choices import INHERITANCES
-from infer.core.supports import ASCERTAINMENT, BALANCE_PARAMETERS
+from infer.core.supports import ASCERTAINMENT, BALANCE_PARAMETERS, SEX_SELECTION
 
 __all__ = ["BalanceState", "broadcast_params", "INHERITANCES"]
 
-_NAMES = (*BALANCE_PARAMETERS, *ASCERTAINMENT)
+_NAMES = (*BALANCE_PARAMETERS, *ASCERTAINMENT, *SEX_SELECTION)
 
 
 def broadcast_params(params: dict) -> dict[str, np.ndarray]:
@@ -29,7 +29,8 @@ def broadcast_params(params: dict) -> dict[str, np.ndarray]:
         Maps each of mu, s, h, F, nu, Ne, alpha to a scalar or array; scalars
         (fixed parameters) are broadcast to the rows of the arrays. The ascertainment
         parameters (penetrance, completeness, phenocopy) take their neutral values
-        (1, 1, 0) when absent.
+        (1, 1, 0) when absent, s_male and s_female NaN ("the same as s"); a NaN s
+        beside given s_male and s_female becomes their mean.
 
     Raises
     ------
@@ -39,8 +40,15 @@ def broadcast_params(params: dict) -> dict[str, np.ndarray]:
     missing = [name for name in BALANCE_PARAMETERS if name not in params]
     if missing:
         raise KeyError(f"parameters missing from the state: {', '.join(missing)}")
-    params = {**ASCERTAINMENT, **params}
+    params = {**ASCERTAINMENT, **SEX_SELECTION, **params}
     arrays = {name: np.asarray(params[name], dtype=float) for name in _NAMES}
+    # parameters of one observation (a registry's own completeness) travel along
+    arrays.update({name: np.asarray(value, dtype=float) for name, value in params.items()
+                   if name not in arrays})
+    if np.isnan(arrays["s"]).any() and np.isfinite(arrays["s_male"]).any():
+        # selection by sex: s is the mean of the sexes' (the study gives no s of its own)
+        arrays["s"] = np.where(np.isnan(arrays["s"]),
+                               0.5 * (arrays["s_male"] + arrays["s_female"]), arrays["s"])
     shapes = {a.shape for a in arrays.values()}
     if len(shapes) == 1 and len(next(iter(shapes))) == 1:
         return arrays  # the common case: already (n,) arrays
@@ -100,8 +108,18 @@ class BalanceState:
         from infer.core import balance
 
         p = broadcast_params(params)
+        if inheritance == "autosomal" and np.isfinite(p["s_male"]).any():
+            from infer.core.two_sex import two_sex_balance
+
+            result = two_sex_balance(p["mu"], p["s_male"], p["s_female"], p["h"], F=p["F"],
+                                     nu=p["nu"])
+            q = np.asarray(result.q_hat, dtype=float)
+            exists = np.asarray(result.exists, dtype=bool) & np.isfinite(q)
+            return cls(p, inheritance, q, None, None, exists, result)
         if inheritance == "autosomal":
-            result = balance.autosomal_balance(p["mu"], p["s"], p["h"], F=p["F"], nu=p["nu"])
+            # h outside [0, 1] reaches here only where a study allows it (files/study.py)
+            result = balance.autosomal_balance(p["mu"], p["s"], p["h"], F=p["F"], nu=p["nu"],
+                                               any_dominance=True)
             q = np.asarray(result.q_hat, dtype=float)
             exists = np.asarray(result.exists, dtype=bool) & np.isfinite(q)
             return cls(p, inheritance, q, None, None, exists, result)

@@ -8,6 +8,8 @@ to the parameter's support and returns log|dx/dz|, so the density in z is
 Under ``model = "deterministic"`` every observation sees the exact balance frequency;
 under ``model = "drift"`` each frequency-dependent observation's probability is
 integrated over Wright's stationary density (docs/model.md, 'Observation models').
+A study with a ``[history]`` sees the history's frequency, or its propagated distribution,
+at each observation's sampling time instead (:mod:`infer.model.history_likelihood`).
 """
 
 from __future__ import annotations
@@ -17,7 +19,13 @@ from collections.abc import Mapping
 import numpy as np
 
 from infer.core.drift import stationary as drift
+from infer.core.history.distribution import history_distributions
 from infer.model.balance_state import BalanceState
+from infer.model.history_likelihood import (
+    history_log_likelihoods,
+    history_states,
+    sampling_times,
+)
 from infer.model.priors.parsing import PARAMETERS, Fixed
 
 __all__ = ["Model"]
@@ -47,6 +55,11 @@ class Model:
         self.observations = list(study.observations)
         self.inheritance = study.inheritance
         self.drift = study.model == "drift"
+        #: the study's [history] (None: at equilibrium) and each observation's sampling time
+        self.history = getattr(study, "history", None)
+        self.sampling_times = sampling_times(study.observations,
+                                             getattr(study, "sampled", {}) or {})
+        self.sex_specific = bool(getattr(study, "sex_specific", False))
         # (k, n, constant) of the drift model's binomial sample probabilities, formed once
         self._binomial_forms = [
             obs.binomial_form() if self.drift and obs.depends_on_frequency else None
@@ -72,7 +85,7 @@ class Model:
             x, log_jac = prior.from_unconstrained(z[:, j])
             params[name] = np.asarray(x, dtype=float)
             log_jacobian = log_jacobian + log_jac
-        return params, log_jacobian
+        return self._with_sex_average(params), log_jacobian
 
     def to_unconstrained(self, params: Mapping[str, np.ndarray]) -> np.ndarray:
         """Map free-parameter arrays to unconstrained rows (n, ndim)."""
@@ -85,6 +98,13 @@ class Model:
         params = {name: np.full(n, value) for name, value in self.fixed.items()}
         for name, value in free_values.items():
             params[name] = np.broadcast_to(np.asarray(value, dtype=float), (n,)).copy()
+        return self._with_sex_average(params)
+
+    def _with_sex_average(self, params: dict) -> dict:
+        """Set s to (s_male + s_female)/2 when the study gives selection by sex."""
+        if self.sex_specific and "s_male" in params and "s_female" in params:
+            params["s"] = 0.5 * (np.asarray(params["s_male"], dtype=float)
+                                 + np.asarray(params["s_female"], dtype=float))
         return params
 
     # -- densities ---------------------------------------------------------------------
@@ -97,8 +117,37 @@ class Model:
         return total
 
     def state(self, params: Mapping[str, np.ndarray]) -> BalanceState:
-        """The deterministic balance state of each row."""
+        """The deterministic balance state of each row.
+
+        Under a deterministic ``[history]``: the history's state today.
+        """
+        if self.history is not None and not self.drift:
+            return history_states(self.history, dict(params), self.inheritance)[0]
         return BalanceState.deterministic(dict(params), self.inheritance)
+
+    def sampling_states(self, params: Mapping[str, np.ndarray],
+                        rng: np.random.Generator) -> list[BalanceState | None]:
+        """Under a history, the state each frequency kind is drawn at (else None).
+
+        Deterministic: the history's state at the observation's sampling time; drift: a
+        frequency per row drawn from the propagated distribution at that time (for
+        predictive draws). None for kinds that do not read the frequency, and for every
+        observation when the study has no history.
+        """
+        states = [None] * len(self.observations)
+        if self.history is None:
+            return states
+        needed = sorted({t for o, t in zip(self.observations, self.sampling_times, strict=True)
+                         if o.depends_on_frequency})
+        if self.drift:
+            laws = history_distributions(self.history, dict(params), times=needed)
+            at = {t: BalanceState.at_frequency(params, law.draw(rng)) for t, law in laws.items()}
+        else:
+            at = history_states(self.history, dict(params), self.inheritance, times=needed)
+        for i, (o, t) in enumerate(zip(self.observations, self.sampling_times, strict=True)):
+            if o.depends_on_frequency:
+                states[i] = at[t]
+        return states
 
     def log_likelihoods(self, params: Mapping[str, np.ndarray]) -> np.ndarray:
         """Per-observation log-likelihoods, shape (n, n_observations).
@@ -106,6 +155,10 @@ class Model:
         The deterministic balance is solved only when some observation reads it (under
         ``model = "drift"`` the frequency-dependent ones integrate over Wright's density).
         """
+        if self.history is not None:
+            return history_log_likelihoods(
+                self.history, dict(params), self.observations, self.sampling_times,
+                drift=self.drift, inheritance=self.inheritance)
         state = None
         columns = []
         for observation, form in zip(self.observations, self._binomial_forms, strict=True):

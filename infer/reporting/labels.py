@@ -20,17 +20,24 @@ __all__ = [
     "fmt_percent",
     "fmt_level",
     "parameter_meanings",
+    "overdominant",
     "model_assumptions",
 ]
 
 #: values below this (and above 0) are written "< 1e-12"
 TINY = 1e-12
 _UNITS = {
-    "h": "dominance of the deleterious allele (Aa loses h·s)",
+    "h": "dominance of the deleterious allele (Aa loses h·s; h < 0: Aa gains)",
     "F": "inbreeding coefficient",
     "nu": "back mutation per gene copy per generation",
     "Ne": "effective population size",
     "alpha": "male/female mutation-rate ratio (mu_male = alpha·mu_female)",
+    "penetrance": "probability that a carrier of the affected genotype is affected",
+    "completeness": "probability that an affected birth is registered",
+    "phenocopy": "affected births per birth that carry no germ-line mutation",
+    "s_male": "selection coefficient against aa in males (Aa 1-h·s_male)",
+    "s_female": "selection coefficient against aa in females (Aa 1-h·s_female)",
+    "q_founder": "allele frequency among the founders (the study's [history])",
 }
 
 
@@ -105,6 +112,13 @@ def _fixed(parameters: dict, name: str):
     return entry.get("median") if entry.get("fixed") else None
 
 
+def overdominant(parameters: dict) -> bool:
+    """Whether h is fixed below 0 or its prior reaches below 0 (the heterozygote may be fittest)."""
+    entry = parameters.get("h") or {}
+    low = entry.get("median") if entry.get("fixed") else entry.get("prior_lower")
+    return low is not None and float(low) < 0
+
+
 def parameter_meanings(inheritance: str, parameters: dict) -> dict[str, str]:
     """The meaning of each parameter for this study.
 
@@ -135,9 +149,17 @@ def parameter_meanings(inheritance: str, parameters: dict) -> dict[str, str]:
                  "homozygotes alike (h = 1, fitness 1-s)")
         elif h == 0:
             s = "selection coefficient against affected homozygotes aa (h = 0, recessive)"
+        elif overdominant(parameters):
+            s = ("selection coefficient against aa (fitness 1-s; Aa 1-h·s, above 1 where "
+                 "h < 0: heterozygote advantage)")
         else:
             s = "selection coefficient against aa (fitness 1-s; Aa 1-h·s)"
-    return {"mu": mu, "s": s, **_UNITS}
+        if "s_male" in parameters:
+            s = "mean of s_male and s_female (the sexes' selection, averaged)"
+    own = {name: f"probability that an affected birth is registered, in the observations "
+                 f'that name "{name}"' for name in parameters
+           if name.startswith("completeness_")}
+    return {"mu": mu, "s": s, **_UNITS, **own}
 
 
 def model_assumptions(model: str) -> list[str]:

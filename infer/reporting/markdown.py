@@ -10,6 +10,7 @@ from infer.reporting.labels import (
     fmt_level,
     fmt_percent,
     model_assumptions,
+    overdominant,
     parameter_meanings,
 )
 from infer.reporting.labels import fmt_value as fmt
@@ -108,11 +109,23 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
               + ("(deterministic mutation-selection balance, infinite population)"
                  if study.model == "deterministic"
                  else "(Wright's stationary distribution: mutation, selection and drift)"),
-              "- Life cycle: census at birth; selection on zygotes (AA 1, Aa 1-hs, aa 1-s), "
-              "mutation in the germ line, random union of gametes"
+              ("- Life cycle: census at birth; selection on zygotes (AA 1, Aa 1-hs, aa 1-s), "
+               if not getattr(study, "sex_specific", False) else
+               "- Life cycle: census at birth; selection on zygotes by sex (males AA 1, "
+               "Aa 1-h·s_male, aa 1-s_male; females likewise with s_female), sperm and eggs "
+               "at their own frequencies, ")
+              + "mutation in the germ line, random union of gametes"
               + (" with inbreeding F" if "F" in result.free or s["parameters"]["F"]["median"]
                  else "") + "."]
-    lines += [f"- {text}" for text in model_assumptions(study.model)] + [""]
+    if "history_comparison" in s:  # a [history] replaces the equilibrium assumption
+        today = ("q_hat below is the frequency it gives today" if study.model != "drift"
+                 else "q_hat below is the deterministic balance value; the frequency today "
+                 "is in 'The history against equilibrium'")
+        lines += ["- A population history is assumed instead of equilibrium today "
+                  f"(the study's [history]; {today}):"]
+        lines += [f"  - {text}" for text in s["history_comparison"]["description"]] + [""]
+    else:
+        lines += [f"- {text}" for text in model_assumptions(study.model)] + [""]
     for assumption in dict.fromkeys(o.assumption for o in study.observations if o.assumption):
         lines += [f"- {assumption}", ""]
     lines += ["Observations:", ""]
@@ -142,6 +155,9 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
                                           "deterministic value, for comparison)"
                                           if "drift_frequency" in s else "") + ":", ""]
     meaning = dict(_DERIVED, **(_DRIFT_MEANING if "drift_frequency" in s else {}))
+    if overdominant(s["parameters"]):
+        meaning["load"] = ("genetic load, 1 - mean fitness relative to the fittest genotype "
+                           "(the heterozygote): segregational and mutational")
     rows = [[k, meaning.get(k, ""), fmt(v["median"]), f"{fmt(v['lower'])} – {fmt(v['upper'])}"]
             for k, v in s["derived"].items()]
     lines += _table(["quantity", "meaning", "median", f"{pct} interval"], rows)
@@ -169,6 +185,18 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
         if rows:
             lines += [""] + _table(["parameter", "drift median", f"drift {pct}",
                                     "deterministic median", f"deterministic {pct}"], rows)
+
+    if "history_comparison" in s:
+        c = s["history_comparison"]
+        lines += ["", "## The history against equilibrium", "", c["statement"]]
+        rows = [[n, fmt(c["with_history"][n]["median"]),
+                 f"{fmt(c['with_history'][n]['lower'])} – {fmt(c['with_history'][n]['upper'])}",
+                 fmt(c["equilibrium"][n]["median"]),
+                 f"{fmt(c['equilibrium'][n]['lower'])} – {fmt(c['equilibrium'][n]['upper'])}"]
+                for n in c["with_history"]]
+        if rows:
+            lines += [""] + _table(["parameter", "history median", f"history {pct}",
+                                    "equilibrium median", f"equilibrium {pct}"], rows)
 
     lines += ["", "## Diagnostics", ""]
     taus = ", ".join(f"{k} {v:.1f}" for k, v in diag["autocorr_time"].items())

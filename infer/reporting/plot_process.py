@@ -44,6 +44,7 @@ class PlotProcess:
             env["PYTHONPATH"] = os.pathsep.join(
                 p for p in (package_root, env.get("PYTHONPATH", "")) if p)
         self._process = None
+        self._sent = False
         if not sys.executable:  # an embedded interpreter: draw in this process
             return
         try:
@@ -53,8 +54,32 @@ class PlotProcess:
         except (OSError, ValueError):  # cannot start, or no process groups here
             self._process = None
 
+    def start(self, result, folder: Path) -> None:
+        """Send ``result`` to the child, which starts drawing into ``folder`` at once.
+
+        The caller writes the rest of the report meanwhile, then calls :meth:`write` to
+        wait for the files. Failures are kept for :meth:`write` to report.
+        """
+        if self._process is None or self._sent:
+            return
+        try:
+            payload = pickle.dumps((result, str(folder)), protocol=pickle.HIGHEST_PROTOCOL)
+        except (pickle.PicklingError, TypeError, AttributeError) as error:
+            self.failure = f"the result cannot be sent to the plot process: {error}"
+            self.close()
+            self._process = None
+            return
+        try:
+            self._process.stdin.write(payload)
+            self._process.stdin.close()
+        except (OSError, ValueError) as error:  # the child has gone: write() reports it
+            self.failure = f"the plot process stopped: {error}"
+        self._sent = True
+
     def write(self, result, folder: Path) -> dict[str, str] | None:
         """Have the child write the plots of ``result`` into ``folder`` and wait for it.
+
+        After :meth:`start` this only waits for the files already being drawn.
 
         Returns
         -------
@@ -63,16 +88,27 @@ class PlotProcess:
             None if the child could not draw them (the caller then draws them itself).
         """
         if self._process is None:
-            self.failure = "the plot process could not be started"
+            self.failure = self.failure or "the plot process could not be started"
             return None
+        if self._sent:
+            return self._collect(None)
         try:
             payload = pickle.dumps((result, str(folder)), protocol=pickle.HIGHEST_PROTOCOL)
         except (pickle.PicklingError, TypeError, AttributeError) as error:
             self.failure = f"the result cannot be sent to the plot process: {error}"
             self.close()
             return None
+        return self._collect(payload)
+
+    def _collect(self, payload: bytes | None) -> dict[str, str] | None:
+        """Send ``payload`` (None: already sent), wait, and read the files written."""
         try:
-            out, err = self._process.communicate(payload)
+            if payload is None:  # stdin already closed by start(); the child writes little
+                out = self._process.stdout.read()  # to stderr (one line on failure), so
+                err = self._process.stderr.read()  # reading one pipe after the other is safe
+                self._process.wait()
+            else:
+                out, err = self._process.communicate(payload)
         except (OSError, ValueError) as error:  # ValueError: its pipes are already closed
             self.failure = f"the plot process stopped: {error}"
             self.close()
@@ -94,7 +130,11 @@ class PlotProcess:
         """Kill the child if it is still running and reap it."""
         if self._process is not None and self._process.poll() is None:
             self._process.kill()
-            self._process.communicate()
+            self._process.wait()
+        if self._process is not None:
+            for pipe in (self._process.stdin, self._process.stdout, self._process.stderr):
+                if pipe is not None and not pipe.closed:
+                    pipe.close()
 
     def __enter__(self) -> PlotProcess:
         return self

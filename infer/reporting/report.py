@@ -42,10 +42,12 @@ def write_report(result, out: Path, force: bool = False, timing: dict | None = N
 
     out = Path(out)
     with atomic_folder(out, force=force) as folder:
+        started = time.perf_counter()
+        if plotter is not None:  # the child draws while this process writes the rest
+            plotter.start(result, folder)
         (folder / "summary.json").write_text(dumps(estimate_document(result)),
                                              encoding="utf-8")
         write_netcdf(result, folder / "posterior.nc", getattr(result, "log_prob", None))
-        started = time.perf_counter()
         plots = plotter.write(result, folder) if plotter is not None else None
         drawn_by = "plot process"
         if plots is None:

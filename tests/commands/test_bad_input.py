@@ -65,7 +65,7 @@ STUDY_CASES = [
      "parameters.mu"),
     ("prior outside support", "low = 0.0, high = 1.0", "low = 0.0, high = 2.0",
      "parameters.s"),
-    ("h above 1", "\nh = 1.0", "\nh = 1.5", "parameters.h"),
+    ("h beyond its range [-10, 10]", "\nh = 1.0", "\nh = 10.5", "parameters.h"),
     ("interval above 1", "interval = 0.95", "interval = 1.5", "interval"),
     ("unknown inheritance", 'inheritance = "autosomal"', 'inheritance = "y-linked"',
      "inheritance"),

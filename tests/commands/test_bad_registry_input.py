@@ -52,6 +52,26 @@ carriers = 15
 
 ALPHA = 'alpha = { prior = "log-uniform", low = 0.1, high = 30.0 }\n'
 
+SEXES = """\
+title = "Catalogue selection by sex"
+inheritance = "autosomal"
+
+[parameters]
+mu = { prior = "log-uniform", low = 1e-8, high = 1e-3 }
+s_male = { prior = "uniform", low = 0.0, high = 1.0 }
+s_female = { prior = "uniform", low = 0.0, high = 1.0 }
+h = 1.0
+
+[[observations]]
+kind = "fertility"
+mode = "dominant"
+sex = "male"
+affected_people = 30
+affected_children = 20
+reference_people = 100
+reference_children = 200
+"""
+
 CASES = [
     ("penetrance above 1", STUDY, "h = 1.0\n", "h = 1.0\npenetrance = 1.5\n",
      "parameters.penetrance"),
@@ -72,6 +92,33 @@ CASES = [
      "observations[1].carriers"),
     ("sensitivity above 1", X_LINKED, "carriers = 15", "carriers = 15\nsensitivity = 2",
      "observations[1].sensitivity"),
+    ("completeness name not declared", STUDY, 'mode = "dominant"\n',
+     'mode = "dominant"\ncompleteness = "completeness_north"\n',
+     'observations[1].completeness: "completeness_north" is not in [parameters]'),
+    ("completeness name declared but not read", STUDY, "h = 1.0\n",
+     "h = 1.0\ncompleteness_south = 0.8\n", "parameters.completeness_south: no observation"),
+    ("completeness name of the wrong form", STUDY, 'mode = "dominant"\n',
+     'mode = "dominant"\ncompleteness = "North"\n', 'observations[1].completeness: "North"'),
+    ("capture-recapture with a fixed completeness", STUDY, "both = 22",
+     "both = 22\ncompleteness = 0.8", "observations[2].completeness: 0.8"),
+    ("s_male without s_female", SEXES,
+     's_female = { prior = "uniform", low = 0.0, high = 1.0 }\n', "",
+     "parameters.s_male: given without s_female"),
+    ("s with s_male and s_female", SEXES, "h = 1.0\n", "h = 1.0\ns = 0.5\n",
+     "parameters.s: given with s"),
+    ("s_male above 1", SEXES, 's_male = { prior = "uniform", low = 0.0, high = 1.0 }',
+     "s_male = 1.2", "parameters.s_male"),
+    ("selection by sex at an x-linked locus", SEXES, 'inheritance = "autosomal"',
+     'inheritance = "x-linked"', "parameters.s_male"),
+    ("selection by sex under drift", SEXES, 'inheritance = "autosomal"',
+     'inheritance = "autosomal"\nmodel = "drift"\n[parameters.Ne]\nprior = "log-uniform"\n'
+     'low = 100\nhigh = 10000', "parameters.s_male: model is"),
+    ("fertility sex not male or female", SEXES, 'sex = "male"', 'sex = "men"',
+     'observations[1].sex: "men"'),
+    ("fertility sex at an x-linked locus", X_LINKED, "carriers = 15\n",
+     'carriers = 15\n\n[[observations]]\nkind = "fertility"\nmode = "x-linked-male"\n'
+     'sex = "male"\naffected_people = 3\naffected_children = 1\nreference_people = 9\n'
+     "reference_children = 9\n", "observations[2].sex"),
 ]
 
 

@@ -49,7 +49,8 @@ def _subcommands():
 
 def test_every_command_takes_json_and_q_quiet_with_one_meaning():
     commands = _subcommands()
-    assert set(commands) == {"equilibrium", "estimate", "check", "batch", "simulate", "demo"}
+    assert set(commands) == {"equilibrium", "estimate", "check", "batch", "simulate", "forecast",
+                             "compare", "demo"}
     for name, parser in commands.items():
         found = {tuple(a.option_strings): a for a in parser._actions}
         assert ("--json",) in found, f"qhat {name} has no --json"

@@ -79,3 +79,17 @@ def test_bad_data_folder_is_one_line_and_status_2(tmp_path, capsys, case):
         f"--data {case}: expected one line naming --data and {data}, got {err!r}")
     assert err.count("\n") == 1 and "Traceback" not in err, f"--data {case}: {err!r}"
     assert not (tmp_path / "r").exists(), f"--data {case}: the reports folder was created"
+
+
+def test_the_treated_island_study_is_forecast_after_its_estimate(tmp_path, capsys):
+    """The Varrow island study (invented) is also forecast with s = 0 (a treatment that
+    restores fertility); the forecast reads the demo's own estimate report."""
+    (tmp_path / "mine").mkdir()
+    name = "island-dominant.toml"
+    (tmp_path / "mine" / name).write_bytes((DEMO / name).read_bytes())
+    status, out, err = call_qhat(["demo", "--data", tmp_path / "mine",
+                                  "--out", tmp_path / "reports", "-q"], capsys)
+    assert status == 0, f"qhat demo exited {status}: {err}"
+    forecast = tmp_path / "reports" / "island-dominant-forecast"
+    assert (forecast / "forecast.csv").is_file() and (forecast / "report.md").is_file(), out
+    assert "== qhat forecast" in out and "s from" in out, out

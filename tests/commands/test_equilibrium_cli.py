@@ -283,8 +283,11 @@ BAD = [
     (["--mu", "0.9", "--s", "0.5", "--h", "0.5", "--inheritance", "x-linked", "--alpha", "0.01"],
      "--mu: 0.9 with --alpha 0.01 gives mu_female = 1.343 per gamete"),
     (["--mu", "1e-5", "--s", "-0.1", "--h", "0.5"], "--s: -0.1 is negative"),
-    (["--mu", "1e-5", "--s", "0.1", "--h", "1.2"], "--h: 1.2 is above 1"),
-    (["--mu", "1e-5", "--s", "0.1", "--h", "-0.2"], "--h: -0.2"),
+    # h outside [0, 1] is general genotype fitness (tests/commands/test_equilibrium_fitness.py);
+    # refused where the heterozygote's fitness 1 - hs would be negative, or not autosomal
+    (["--mu", "1e-5", "--s", "0.1", "--h", "12"], "--h: 12 with s = 0.1 gives"),
+    (["--mu", "1e-5", "--s", "0.1", "--h", "-0.2", "--inheritance", "x-linked"],
+     "--h: -0.2 is outside [0, 1]"),
     (["--mu", "1e-5", "--s", "0.1", "--h", "0.5", "--F", "1"], "--F: 1"),
     (["--mu", "1e-5", "--s", "0.1", "--h", "0.5", "--F", "-0.1"], "--F: -0.1"),
     (["--mu", "1e-5", "--s", "0.1", "--h", "0.5", "--nu", "1"], "--nu: 1"),

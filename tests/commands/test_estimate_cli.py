@@ -237,7 +237,7 @@ BAD = [
     ("affected = 19", "affected = -1", "observations[1].affected"),
     ('kind = "sporadic"', 'kind = "sporadik"', "observations[2].kind"),
     ('prior = "uniform"', 'prior = "flat"', "parameters.s"),
-    ("\nh = 1.0", "\nh = 1.5", "parameters.h"),
+    ("\nh = 1.0", "\nh = 10.5", "parameters.h"),
     ("cases = 15", "cases = 1.5", "observations[2].cases"),
     ('mode = "dominant"\n[[observations]]\nkind = "sporadic"',
      'mode = "dominat"\n[[observations]]\nkind = "sporadic"', "observations[1].mode"),

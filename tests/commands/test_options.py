@@ -58,6 +58,25 @@ CASES = {
          "--replicates: 100000 replicates x 800000 kept generations is more than 50000000 "
          "values; use --thin or fewer replicates"),
         (["--plot", "sim.gif"], "--plot: sim.gif must end in .png"),
+        (["--q0", "1.5"], "--q0: 1.5 is above 1"),
+    ],
+    # options are checked before the report folder is read (it does not exist here)
+    "forecast": [
+        (["--generations", "-3"], "--generations: -3 is negative"),
+        (["--generations", "2.5"], "--generations: 2.5 is not a whole number"),
+        (["--set", "Ne=10"],
+         "--set: 'Ne' is not one of s, h, mu, F, nu, alpha, penetrance, s_male, s_female"),
+        (["--set", "s=1.5"], "--set s: 1.5 is above 1"),
+        (["--set", "penetrance=0"], "--set penetrance: 0 must be above 0"),
+        (["--mode", "both"], "--mode: 'both' is not one of dominant, recessive"),
+    ],
+    "compare": [
+        (["--models", "founder"], '--models: "founder" is not yet built: it needs the '
+         "population-history model, in progress separately; built: balance, "
+         "heterozygote-advantage"),
+        (["--models", "balance,balance"], '--models: "balance" is named twice'),
+        (["--method", "nested"], "--method: 'nested' is not one of auto, quadrature, bridge"),
+        (["--seed", "-3"], "--seed: -3 is negative"),
     ],
     "estimate": [
         (["--seed", "abc"], "--seed: 'abc' is not a number"),
@@ -97,8 +116,11 @@ def _base(command: str, folder) -> list:
     return {"equilibrium": EQUILIBRIUM,
             "simulate": SIMULATE,
             "estimate": ["estimate", STUDY, "--out", out],
+            "compare": ["compare", STUDY, "--out", out],
             "check": ["check", CLAIM, "--out", out],
-            "batch": ["batch", LOCI, "--out", out]}[command]
+            "batch": ["batch", LOCI, "--out", out],
+            "forecast": ["forecast", folder.parent / "no-report", "--generations", "5",
+                         "--out", out]}[command]
 
 
 def _merge(base: list, extra: list) -> list:

@@ -437,10 +437,11 @@ def test_a_closed_stdout_is_refused_before_any_work(tmp_path):
 
 
 def test_with_stderr_closed_the_error_line_does_not_go_to_stdout(tmp_path):
-    done = subprocess.run(qhat_command(*EQUILIBRIUM[:-1], "7"), cwd=tmp_path,
+    # --h 12 with --s 0.1: the heterozygote's fitness 1 - hs would be negative
+    done = subprocess.run(qhat_command(*EQUILIBRIUM[:-1], "12"), cwd=tmp_path,
                           stdin=subprocess.DEVNULL, stdout=subprocess.PIPE, text=True,
                           preexec_fn=lambda: os.close(2), timeout=300)
-    assert done.returncode == 2, f"--h 7 must be refused (exit 2); got {done.returncode}"
+    assert done.returncode == 2, f"--h 12 must be refused (exit 2); got {done.returncode}"
     assert done.stdout == "", f"the error went to stdout: {done.stdout!r}"
 
 

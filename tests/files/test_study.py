@@ -100,7 +100,8 @@ def test_good_study_parses_with_defaults(tmp_path):
     for name, prior in expected.items():
         assert study.parameters[name] == prior, (
             f"parameters.{name} read as {study.parameters[name]!r}; the file says {prior!r}")
-    left_out = {"F", "nu", "Ne", "alpha", "penetrance", "completeness", "phenocopy"}
+    left_out = {"F", "nu", "Ne", "alpha", "penetrance", "completeness", "phenocopy",
+                "s_male", "s_female"}
     assert study.defaulted == left_out, (
         f"the parameters the file leaves out are {left_out}; defaulted = {study.defaulted}")
     assert study.free == ["mu", "s"], f"mu and s have priors, h is fixed; free = {study.free}"
@@ -123,9 +124,11 @@ def test_good_study_round_trips(tmp_path):
                  "seed", "sampler"):
         assert getattr(second, name) == getattr(first, name), (
             f"{name} changed on a round trip through study_document:\n{text}")
-    # Ne is not used by the deterministic model, so study_document does not write it
-    assert second.defaulted == {"Ne"}, (
-        f"after the round trip only Ne may be defaulted; defaulted = {second.defaulted}")
+    # Ne is not used by the deterministic model, so study_document does not write it; nor
+    # does it write s_male and s_female when they are "as s" (no value of their own)
+    assert second.defaulted == {"Ne", "s_male", "s_female"}, (
+        f"after the round trip only Ne and the sex pair may be defaulted; "
+        f"defaulted = {second.defaulted}")
 
 
 def test_omitted_keys_take_defaults_and_title_defaults_to_file_name(tmp_path):

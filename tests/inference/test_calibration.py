@@ -227,10 +227,14 @@ def test_a_narrow_prior_far_from_the_registry_is_calibrated():
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("name", ["lowmark-two-sources", "eastvik-carrier-mothers"])
+@pytest.mark.parametrize("name", ["lowmark-two-sources", "eastvik-carrier-mothers",
+                                  "orrinsay-sex-fertility", "skellan-two-regions"])
 def test_registry_ascertainment_studies_are_calibrated(name):
-    """The completeness a capture-recapture count informs (lowmark: mu, s, completeness)
-    and the alpha that carrier mothers inform (eastvik: mu, s, alpha)."""
+    """The completeness a capture-recapture count informs (lowmark: mu, s, completeness),
+    the alpha that carrier mothers inform (eastvik: mu, s, alpha) and the selection in
+    each sex that the fertility of affected men and women informs (orrinsay: mu, s_male,
+    s_female, through the two-sex balance) and each registry's own completeness (skellan:
+    mu, completeness_north informed by two sources, completeness_south by its prior)."""
     ranks = _exact_ranks(load_study(DEMO / f"{name}.toml"), 30, seed=2026)
     for n, u in ranks.items():
         # clear miscalibration only: over 30 replicates the binomial sd of a 95 %

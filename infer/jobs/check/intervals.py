@@ -16,9 +16,9 @@ import numpy as np
 
 from infer.jobs.check.findings import Finding, claimed_text
 from infer.core.text import fmt
-from infer.core.supports import ASCERTAINMENT
+from infer.core.supports import ASCERTAINMENT, EXTENDED_SUPPORT
 from infer.files.claim import OTHER_WIDE_PRIORS, REQUIRED_PARAMETERS, WIDE_PRIORS, Claim
-from infer.model.priors.parsing import SUPPORT, LogUniform
+from infer.model.priors.parsing import SUPPORT, LogUniform, Uniform
 
 __all__ = ["implied_intervals"]
 
@@ -53,8 +53,8 @@ def _evidence(grid, name: str, claimed: float, level: float) -> tuple[float, tup
     keep = order[: int(np.searchsorted(np.cumsum(mass[order]), level)) + 1]
     lower, upper = float(x[keep].min()), float(x[keep].max())
     if not log_scale:  # the grid stops 1e-10 of prior mass short of a support end
-        lower = 0.0 if lower < 1e-8 else lower
-        upper = 1.0 if upper > 1 - 1e-8 else upper
+        lower = 0.0 if 0 <= lower < 1e-8 else lower
+        upper = 1.0 if 1 - 1e-8 < upper <= 1 else upper
     return evidence, (lower, upper)
 
 
@@ -122,6 +122,10 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
         others = claimed_text(claim, [n for n in names if n != name])
         used = [o for o in study.observations if _reads(o, name, model)]
         prior = _PRIORS[name]
+        if name == "h" and not 0.0 <= claim.values["h"] <= 1.0:
+            # a claimed heterozygote advantage (h < 0) or Aa below aa (h > 1): ask over the
+            # whole range a study may give h (infer.core.supports.EXTENDED_SUPPORT)
+            prior = Uniform("h", *EXTENDED_SUPPORT["h"])
         if not used:
             out[name] = {"informed": False}
             continue

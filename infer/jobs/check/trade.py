@@ -319,11 +319,27 @@ def _heterozygote_advantage(claim: Claim, q: float | None):
     # a carrier advantage of a few per cent is the size seen where overdominance is
     # documented (common practice); a larger one is a less likely explanation
     score = 1.0 if s1 <= 0.05 else 2.5
-    return score, (f"Heterozygote advantage (overdominance) could hold the allele at the "
-                   f"observed frequency {fmt(q)}: with fitnesses 1-s1 (AA), 1 (Aa), 1-s2 "
-                   f"(aa) the equilibrium is q = s1/(s1+s2) (Fisher 1922), so with s2 = "
-                   f"s = {fmt(s)} carriers would need an advantage s1 = {fmt(s1)} over "
-                   "non-carriers; carrier fitness or survival data would test it."), details
+    text = (f"Heterozygote advantage (overdominance) could hold the allele at the "
+            f"observed frequency {fmt(q)}: with fitnesses 1-s1 (AA), 1 (Aa), 1-s2 "
+            f"(aa) the equilibrium is q = s1/(s1+s2) (Fisher 1922), so with s2 = "
+            f"s = {fmt(s)} carriers would need an advantage s1 = {fmt(s1)} over "
+            "non-carriers")
+    from infer.jobs.check.weighed import weigh_heterozygote_advantage
+
+    weighed = weigh_heterozygote_advantage(claim)
+    if weighed is not None:
+        details["weighed"] = weighed
+        a, ratio = weighed["advantage"], weighed["log_evidence_ratio"] / math.log(10)
+        shown_ratio = "infinite" if not math.isfinite(ratio) else f"10^{ratio:.1f}"
+        text += (f". Fitted to the reported data (h ~ {weighed['prior']}, mu and s at their "
+                 "claimed values, with mutation): an advantage of about "
+                 f"{fmt(100 * a['median'], 2)} % ({fmt(100 * a['lower'], 2)} to "
+                 f"{fmt(100 * a['upper'], 2)} %) holds the "
+                 f"observed frequency; evidence ratio against recurrent mutation at the "
+                 f"claimed values {shown_ratio}")
+        # ranked by the evidence (Kass & Raftery 1995): decisive for the advantage first
+        score = 0.25 if ratio > 2 else (1.0 if ratio > 0 else 3.5)
+    return score, text + "; carrier fitness or survival data would test it.", details
 
 
 def _drift_chance(claim: Claim, q: float | None, direction: str, rng_seed: int):

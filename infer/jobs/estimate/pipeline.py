@@ -83,6 +83,11 @@ def estimate(study, seed: int | None = None, settings: SamplerSettings | None = 
 
         result.summary["drift_comparison"] = compare_drift_with_deterministic(
             study, result.posterior, rng, settings=settings)
+    if getattr(study, "history", None) is not None:
+        from infer.jobs.estimate.history_comparison import compare_history_with_equilibrium
+
+        result.summary["history_comparison"] = compare_history_with_equilibrium(
+            study, result.posterior, rng, settings=settings)
     result.log_prob = run.log_prob
     timing = {"seconds": time.perf_counter() - started, "sampling_seconds": run.seconds,
               "grid_seconds": grid_seconds}

@@ -495,7 +495,8 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
         derived = {k: v.reshape(chains, draws)
                    for k, v in derived_quantities(model, params, state, wright=False).items()}
         predictive_state = state
-        if model.drift:
+        # Wright's stationary distribution describes the population only without a history
+        if model.drift and getattr(model, "history", None) is None:
             from infer.core.drift import stationary as drift
             from infer.model.balance_state import BalanceState
 
@@ -514,9 +515,12 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
                               "no_equilibrium_share": float(np.mean(~np.isfinite(v)))}
 
     replicated, predictive = [], []
-    for obs in model.observations:
+    with np.errstate(all="ignore"):  # under a [history]: the state at each sampling time
+        sampled_states = model.sampling_states(params, rng)
+    for obs, sampled_state in zip(model.observations, sampled_states, strict=True):
         with np.errstate(all="ignore"):
             at = predictive_state if obs.depends_on_frequency else state
+            at = at if sampled_state is None else sampled_state
             rep = np.asarray(obs.simulate(at, rng), dtype=float)
             expected = np.asarray(obs.expected(at), dtype=float)
         replicated.append(rep.reshape(chains, draws))
@@ -565,7 +569,7 @@ def summarise(model, run: SamplingRun, rng: np.random.Generator, grid=None,
     classic = summarise_direct_indirect(study.observations, params["alpha"], rng, interval)
     if classic is not None:
         summary["direct_indirect"] = classic
-    if model.drift:
+    if model.drift and getattr(model, "history", None) is None:
         summary["drift_frequency"] = drift_frequency(sub_params, x[keep],
                                                      derived["q_mean_drift"].ravel(),
                                                      model.observations, interval)

@@ -30,7 +30,7 @@ from scipy import special
 
 from infer.core.choices import AUTOSOMAL_MODES, MODES, X_LINKED_MODES
 from infer.core.stats import log_binomial
-from infer.core.supports import ASCERTAINMENT
+from infer.core.supports import ASCERTAINMENT, NAMED_COMPLETENESS
 from infer.errors import InputError
 from infer.model.balance_state import BalanceState
 from infer.model.observations.share import FrequencyStatistic
@@ -173,9 +173,15 @@ class Observation:
         ``params``), else the neutral value of ``ASCERTAINMENT``.
         """
         own = getattr(self, name, None)
+        fixed = getattr(self, "_study_fixed", {})
+        if isinstance(own, str):  # a parameter of its own, "completeness_<tag>"
+            if own in fixed:
+                return fixed[own]
+            if params is not None and own in params:
+                return np.asarray(params[own], dtype=float)
+            return None
         if own is not None:
             return own
-        fixed = getattr(self, "_study_fixed", {})
         if name in fixed:
             return fixed[name]
         if params is not None and name in params:
@@ -367,7 +373,10 @@ def ascertainment_text(observation) -> str:
         if name not in observation.ascertainment:
             continue
         value = observation.ascertained(name)
-        if value is None:
+        own = getattr(observation, name, None)
+        if value is None and isinstance(own, str):
+            parts.append(f"{own} from its prior")
+        elif value is None:
             parts.append(f"{name} from its prior")
         elif value != neutral:
             parts.append(f"{name} {format_number(value)}")
@@ -376,8 +385,12 @@ def ascertainment_text(observation) -> str:
 
 def free_ascertainment(observation) -> set[str]:
     """The ascertainment parameters an observation reads from the study's priors."""
-    return {name for name in observation.ascertainment
-            if observation.ascertained(name) is None}
+    names = set()
+    for name in observation.ascertainment:
+        if observation.ascertained(name) is None:
+            own = getattr(observation, name, None)
+            names.add(own if isinstance(own, str) else name)
+    return names
 
 
 def parse_ascertainment(table: dict, field: str, names, cases: int) -> dict:
@@ -390,6 +403,14 @@ def parse_ascertainment(table: dict, field: str, names, cases: int) -> dict:
     for name in names:
         if name not in table:
             values[name] = None
+            continue
+        if name == "completeness" and isinstance(table[name], str):
+            if not NAMED_COMPLETENESS.fullmatch(table[name]):
+                raise InputError(
+                    f"{quote_value(table[name])} is neither a probability nor the name of a "
+                    'parameter of the form "completeness_<tag>" (lower-case letters, digits, '
+                    "_)", field=f"{field}.{name}")
+            values[name] = table[name]
             continue
         value = probability(table[name], f"{field}.{name}")
         if name in ("penetrance", "completeness") and value == 0 and cases > 0:

@@ -16,8 +16,9 @@ from typing import ClassVar
 import numpy as np
 
 from infer.core.capture import TwoSourceLikelihood, prior_split_draws, split_draws
-from infer.model.observations.base import Observation, at_least_one
-from infer.validate import whole_count
+from infer.errors import InputError
+from infer.model.observations.base import Observation, at_least_one, parse_ascertainment
+from infer.validate import quote_value, whole_count
 
 __all__ = ["CaptureRecapture"]
 
@@ -41,15 +42,25 @@ class CaptureRecapture(Observation):
         "complete than it is).")
     required: ClassVar[tuple[str, ...]] = ("first_only", "second_only", "both")
     ascertainment: ClassVar[tuple[str, ...]] = ("completeness",)
+    #: ``completeness = "completeness_<tag>"``: the registry whose completeness it informs
+    optional: ClassVar[tuple[str, ...]] = ("completeness",)
 
     first_only: int = 0
     second_only: int = 0
     both: int = 0
+    completeness: str | None = None
 
     @classmethod
     def _parse(cls, table, field, inheritance):
         values = {k: whole_count(table[k], f"{field}.{k}") for k in cls.required}
         at_least_one(sum(values.values()), f"{field}.both")
+        if "completeness" in table and not isinstance(table["completeness"], str):
+            raise InputError(
+                f"{quote_value(table['completeness'])}: two sources inform the completeness, "
+                'so it cannot be fixed here; name the parameter they inform, e.g. '
+                'completeness = "completeness_north", or leave the key out (the study\'s '
+                "completeness)", field=f"{field}.completeness")
+        values.update(parse_ascertainment(table, field, cls.ascertainment, 1))
         return values
 
     @property
@@ -113,12 +124,12 @@ class CaptureRecapture(Observation):
         """One line for reports."""
         return (f"{self.label}: {self.found} cases found, {self.first_only} by the first "
                 f"source only, {self.second_only} by the second only, {self.both} by both "
-                "(capture-recapture: informs completeness)")
+                f"(capture-recapture: informs {self.completeness or 'completeness'})")
 
     def parameters_used(self, model="deterministic"):
-        """The completeness alone."""
-        return {"completeness"}
+        """The completeness alone (the study's, or the registry's it names)."""
+        return {self.completeness or "completeness"}
 
     def needs_free(self) -> set[str]:
         """The completeness must carry a prior for these data to inform it."""
-        return {"completeness"}
+        return {self.completeness or "completeness"}

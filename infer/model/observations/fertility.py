@@ -21,7 +21,11 @@ from infer.model.observations.base import (
     parse_ascertainment,
     parse_mode,
 )
-from infer.validate import whole_count
+from infer.errors import InputError
+from infer.validate import choice, quote_value, whole_count
+
+#: the ``sex`` of a fertility table: whose children were counted
+SEXES = ("male", "female")
 
 __all__ = ["Fertility", "observed_relative_fertility"]
 
@@ -53,6 +57,11 @@ class Fertility(Observation):
     carriers have normal fertility, an assumption): the genotype's loss is P times the
     affected people's, so affected people have w = 1 − h·s / P (dominant) or 1 − s / P,
     and a genotype's selection above P is impossible (w < 0 has no probability).
+
+    ``sex = "male"`` or ``"female"`` (autosomal): the affected people are all men or all
+    women, and the genotype's selection is that sex's s_male or s_female when the study
+    gives selection by sex (else s, the same in both sexes). Without ``sex`` the people
+    are read as of both sexes, at the mean s.
     """
 
     kind: ClassVar[str] = "fertility"
@@ -66,7 +75,7 @@ class Fertility(Observation):
         "affected_people", "affected_children", "reference_people", "reference_children", "mode",
     )
     ascertainment: ClassVar[tuple[str, ...]] = ("penetrance",)
-    optional: ClassVar[tuple[str, ...]] = ascertainment
+    optional: ClassVar[tuple[str, ...]] = (*ascertainment, "sex")
 
     affected_people: int = 1
     affected_children: int = 0
@@ -74,6 +83,7 @@ class Fertility(Observation):
     reference_children: int = 0
     mode: str = "dominant"
     penetrance: float | None = None
+    sex: str | None = None
 
     @classmethod
     def _parse(cls, table, field, inheritance):
@@ -81,6 +91,13 @@ class Fertility(Observation):
         at_least_one(values["affected_people"], f"{field}.affected_people")
         at_least_one(values["reference_people"], f"{field}.reference_people")
         values["mode"] = parse_mode(table, field, inheritance)
+        if "sex" in table:
+            if inheritance != "autosomal":
+                raise InputError(
+                    f'{quote_value(table["sex"])}: sex applies to an autosomal locus (an '
+                    'x-linked study\'s affected people are the hemizygous men of mode '
+                    '"x-linked-male")', field=f"{field}.sex")
+            values["sex"] = choice(table["sex"], SEXES, f"{field}.sex")
         return {**values, **parse_ascertainment(table, field, cls.ascertainment,
                                                 values["affected_people"])}
 
@@ -90,6 +107,9 @@ class Fertility(Observation):
         P the penetrance (1: every carrier affected, w the genotype's 1 − h·s or 1 − s).
         """
         s = np.asarray(params["s"], dtype=float)
+        if self.sex is not None and f"s_{self.sex}" in params:
+            own = np.asarray(params[f"s_{self.sex}"], dtype=float)
+            s = np.where(np.isnan(own), s, own)  # NaN: selection the same in both sexes
         if self.mode == "dominant":
             s = np.asarray(params["h"], dtype=float) * s
         return 1.0 - s / self.ascertained("penetrance", params)
@@ -169,10 +189,12 @@ class Fertility(Observation):
         return (
             f"{self.label}: {self.affected_people} affected people had {self.affected_children} "
             f"children, {self.reference_people} reference people had {self.reference_children} "
-            f"({self.mode}{ascertainment_text(self)}; selection through fertility alone)"
+            f"({self.mode}{'' if self.sex is None else ', ' + self.sex}"
+            f"{ascertainment_text(self)}; selection through fertility alone)"
         )
 
     def parameters_used(self, model="deterministic"):
         """Life-cycle parameters the likelihood depends on: s (and h)."""
-        used = {"s", "h"} if self.mode == "dominant" else {"s"}
+        selection = {"s"} if self.sex is None else {"s", f"s_{self.sex}"}
+        used = selection | {"h"} if self.mode == "dominant" else selection
         return used | free_ascertainment(self)

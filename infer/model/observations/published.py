@@ -15,7 +15,7 @@ import numpy as np
 from scipy import special
 
 from infer.core.stats import Z975, sigma_of_log
-from infer.core.supports import PARAMETERS
+from infer.core.supports import NAMED_COMPLETENESS, PARAMETERS
 from infer.errors import InputError
 from infer.model.observations.base import Observation
 from infer.validate import choice, format_number, quote_value, real_number
@@ -26,18 +26,23 @@ __all__ = ["Estimate", "LOGIT_SCALE"]
 LOGIT_SCALE = ("h", "F", "penetrance", "completeness", "phenocopy")
 
 
+def _logit(parameter: str) -> bool:
+    """Read on the logit scale: :data:`LOGIT_SCALE` and each registry's completeness."""
+    return parameter in LOGIT_SCALE or bool(NAMED_COMPLETENESS.fullmatch(parameter))
+
+
 def _to_scale(parameter: str, x):
     """The estimate's scale: logit for :data:`LOGIT_SCALE`, log otherwise."""
     x = np.asarray(x, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
-        if parameter in LOGIT_SCALE:
+        if _logit(parameter):
             return np.log(x) - np.log1p(-x)
         return np.log(x)
 
 
 def _from_scale(parameter: str, y):
     y = np.asarray(y, dtype=float)
-    return special.expit(y) if parameter in LOGIT_SCALE else np.exp(y)
+    return special.expit(y) if _logit(parameter) else np.exp(y)
 
 
 @dataclass
@@ -61,7 +66,11 @@ class Estimate(Observation):
 
     @classmethod
     def _parse(cls, table, field, inheritance):
-        parameter = choice(table["parameter"], PARAMETERS, f"{field}.parameter")
+        named = table["parameter"]
+        if isinstance(named, str) and NAMED_COMPLETENESS.fullmatch(named):
+            parameter = named  # a registry's own completeness, declared in [parameters]
+        else:
+            parameter = choice(named, PARAMETERS, f"{field}.parameter")
         values = {k: real_number(table[k], f"{field}.{k}") for k in ("median", "lower", "upper")}
         if values["lower"] <= 0:
             raise InputError(
@@ -77,12 +86,12 @@ class Estimate(Observation):
                 f"{quote_value(table['upper'])} is not above median {quote_value(table['median'])}",
                 field=f"{field}.upper",
             )
-        if parameter in ("mu", "s", "nu") and values["median"] > 1:
+        if parameter in ("mu", "s", "nu", "s_male", "s_female") and values["median"] > 1:
             raise InputError(
                 f"{quote_value(table['median'])} is above 1, outside the range of {parameter}",
                 field=f"{field}.median",
             )
-        if parameter in LOGIT_SCALE and values["upper"] >= 1:
+        if _logit(parameter) and values["upper"] >= 1:
             raise InputError(
                 f"{quote_value(table['upper'])} is not below 1: an estimate of {parameter} "
                 "is read on the logit scale, so its interval lies inside (0, 1)",
@@ -93,7 +102,7 @@ class Estimate(Observation):
     @property
     def sigma(self) -> float:
         """Standard deviation on the estimate's scale implied by the 95 % interval."""
-        if self.parameter in LOGIT_SCALE:
+        if _logit(self.parameter):
             return float((_to_scale(self.parameter, self.upper)
                           - _to_scale(self.parameter, self.lower)) / (2.0 * Z975))
         return float(sigma_of_log(self.lower, self.upper))
@@ -132,7 +141,7 @@ class Estimate(Observation):
     def predictive_tails(self, state):
         """Exact tails of the published median around each row's parameter."""
         lower = float(np.mean(special.ndtr(self._z(state.params[self.parameter]))))
-        return lower, 1.0 - lower, ("logit-normal" if self.parameter in LOGIT_SCALE
+        return lower, 1.0 - lower, ("logit-normal" if _logit(self.parameter)
                                     else "log-normal")
 
     def _draw_table_fields(self, state, rng):

@@ -17,7 +17,14 @@ from typing import ClassVar
 import numpy as np
 from scipy import special
 
-from infer.core.supports import CLOSED_ENDS, SUPPORT, logit_from, logit_to, support_text
+from infer.core.supports import (
+    CLOSED_ENDS,
+    EXTENDED_SUPPORT,
+    SUPPORT,
+    logit_from,
+    logit_to,
+    support_text,
+)
 from infer.validate import format_number
 
 __all__ = [
@@ -207,6 +214,13 @@ class Uniform(_Interval):
     """Uniform on [low, high]."""
 
     family = "uniform"
+
+    @functools.cached_property
+    def _closed_range(self) -> tuple[float, float]:
+        # h may reach outside [0, 1] through a uniform prior (EXTENDED_SUPPORT)
+        if self.parameter in EXTENDED_SUPPORT:
+            return self.low, self.high
+        return Prior._closed_range.func(self)
 
     def _log_density(self, x):
         return np.full_like(x, -math.log(self.high - self.low))

@@ -36,7 +36,14 @@ alpha  fixed 1 (equal rates)       same
 pen.   fixed 1 (``penetrance``)    same
 comp.  fixed 1 (``completeness``)  same
 phen.  fixed 0 (``phenocopy``)     same
+s_m.   as s (``s_male``)           same
+s_f.   as s (``s_female``)         same
 =====  ==========================  ===========================================================
+
+Sex-specific selection: ``s_male`` and ``s_female`` are given together, in place of s
+(autosomal, deterministic model); s is then their mean (:class:`SexAverage`), the balance
+is :func:`infer.core.two_sex.two_sex_balance`, and a fertility observation with
+``sex = "male"`` or ``"female"`` reads that sex's coefficient.
 
 Sampling coordinates: every prior maps its support to the whole real line with
 :meth:`Prior.to_unconstrained` / :meth:`Prior.from_unconstrained`, which also returns
@@ -59,7 +66,14 @@ from typing import Any
 
 import numpy as np
 
-from infer.core.supports import PARAMETERS, SUPPORT, in_support, support_text
+from infer.core.supports import (
+    EXTENDED_SUPPORT,
+    PARAMETERS,
+    SUPPORT,
+    in_extended_support,
+    in_support,
+    support_text,
+)
 from infer.errors import InputError
 from infer.model.priors.families import (
     FAMILIES,
@@ -87,11 +101,53 @@ __all__ = [
     "Normal",
     "Fixed",
     "defaults_for",
+    "SameAsS",
+    "SexAverage",
+    "is_placeholder",
     "defaults_table",
     "parse_parameter",
     "MIN_RELATIVE_SPREAD",
     "relative_spread",
 ]
+
+class _Placeholder(Fixed):
+    """A stand-in without a value (NaN); equal to another of its class and parameter."""
+
+    def __eq__(self, other):
+        return type(other) is type(self) and other.parameter == self.parameter
+
+    def __hash__(self):
+        return hash((type(self).__name__, self.parameter))
+
+
+class SameAsS(_Placeholder):
+    """s_male or s_female not given: selection is the same in both sexes (value NaN)."""
+
+    def describe(self) -> str:
+        """One line for reports."""
+        return "as s (no difference between the sexes)"
+
+    def as_dict(self) -> dict:
+        """The value for summary.json."""
+        return {"fixed": None, "as": "s"}
+
+
+class SexAverage(_Placeholder):
+    """s when s_male and s_female are given: their mean, not a parameter of its own."""
+
+    def describe(self) -> str:
+        """One line for reports."""
+        return "(s_male + s_female) / 2"
+
+    def as_dict(self) -> dict:
+        """The value for summary.json."""
+        return {"fixed": None, "as": "(s_male + s_female) / 2"}
+
+
+def is_placeholder(spec) -> bool:
+    """A stand-in with no value of its own (:class:`SameAsS`, :class:`SexAverage`)."""
+    return isinstance(spec, _Placeholder)
+
 
 DEFAULTS: dict[str, Prior | Fixed] = {
     "mu": LogUniform("mu", 1e-9, 1e-3),
@@ -104,6 +160,8 @@ DEFAULTS: dict[str, Prior | Fixed] = {
     "penetrance": Fixed("penetrance", 1.0),
     "completeness": Fixed("completeness", 1.0),
     "phenocopy": Fixed("phenocopy", 0.0),
+    "s_male": SameAsS("s_male", math.nan),
+    "s_female": SameAsS("s_female", math.nan),
 }
 """Defaults of the deterministic model (Ne = inf: an infinite population, unused)."""
 
@@ -131,19 +189,28 @@ def defaults_table() -> list[tuple[str, str, str]]:
     ]
 
 
-def _check_prior_range(name: str, low: float, high: float, field: str) -> None:
-    """A prior's [low, high] must lie within the closure of the parameter's support."""
-    lower, upper = SUPPORT[name]
+def _check_prior_range(name: str, low: float, high: float, field: str,
+                       extended: bool = False) -> None:
+    """A prior's [low, high] must lie within the closure of the parameter's support.
+
+    With ``extended`` (a uniform prior) the wider EXTENDED_SUPPORT applies where given.
+    """
+    lower, upper = EXTENDED_SUPPORT.get(name, SUPPORT[name]) if extended else SUPPORT[name]
+    shown = _extended_text(name) if extended else f"the support {support_text(name)} of {name}"
     if low < lower:
-        raise InputError(
-            f"{quote_value(low)} is outside the support {support_text(name)} of {name}",
-            field=f"{field}.low",
-        )
+        raise InputError(f"{quote_value(low)} is outside {shown}", field=f"{field}.low")
     if high > upper:
-        raise InputError(
-            f"{quote_value(high)} is outside the support {support_text(name)} of {name}",
-            field=f"{field}.high",
-        )
+        raise InputError(f"{quote_value(high)} is outside {shown}", field=f"{field}.high")
+
+
+def _extended_text(name: str) -> str:
+    """Where a fixed value or a uniform prior of ``name`` may lie, in words."""
+    if name not in EXTENDED_SUPPORT:
+        return f"the support {support_text(name)} of {name}"
+    lower, upper = EXTENDED_SUPPORT[name]
+    return (f"[{lower:g}, {upper:g}], the range of {name} as a fixed value or a uniform prior "
+            f"(h < 0: heterozygote advantage; h > 1: Aa below aa; autosomal deterministic "
+            f"model only; other priors keep {support_text(name)})")
 
 
 def _parse_prior(name: str, table: dict, field: str) -> Prior:
@@ -161,7 +228,7 @@ def _parse_prior(name: str, table: dict, field: str) -> Prior:
                 f"{quote_value(table['low'])} is not below high {quote_value(table['high'])}",
                 field=f"{field}.low",
             )
-        _check_prior_range(name, low, high, field)
+        _check_prior_range(name, low, high, field, extended=cls is Uniform)
         if cls is LogUniform and low <= 0:
             raise InputError(
                 f"{quote_value(table['low'])} is not above 0 (a log-uniform prior needs low > 0)",
@@ -281,9 +348,6 @@ def parse_parameter(name: str, value: Any, *, field: str) -> Prior | Fixed:
             field=field,
         )
     number = real_number(value, field)
-    if not in_support(name, np.asarray(number)):
-        raise InputError(
-            f"{quote_value(value)} is outside the support {support_text(name)} of {name}",
-            field=field,
-        )
+    if not in_extended_support(name, np.asarray(number)):
+        raise InputError(f"{quote_value(value)} is outside {_extended_text(name)}", field=field)
     return Fixed(name, number)

@@ -1,6 +1,7 @@
 """The figure of ``qhat equilibrium --plot``: q̂ against h, with the classic approximations.
 
-The top panel draws the exact stable equilibrium over h in [0, 1] (X-linked: the
+The top panel draws the exact stable equilibrium over h in [0, 1], widened to reach a
+chosen h outside it (heterozygote advantage, h < 0, or Aa below aa, h > 1) (X-linked: the
 frequency among sons), each approximation solid where it is in range and dotted
 outside, and a dashed line at the chosen h; the strip below marks where each
 approximation leaves its range. Built without pyplot (:mod:`infer.reporting.plots.save`).
@@ -27,7 +28,7 @@ def _curves(options: dict, h: np.ndarray):
     """(exact curve, approximations, y-axis label) over ``h``."""
     mu, s, F, nu = (options[k] for k in ("mu", "s", "F", "nu"))
     if options["inheritance"] == "autosomal":
-        exact = balance.autosomal_balance(mu, s, h, F, nu).q_hat
+        exact = balance.autosomal_balance(mu, s, h, F, nu, any_dominance=True).q_hat
         found = approximations.autosomal_approximations(mu, s, h, F)
         return exact, found, "equilibrium frequency q̂ of the deleterious allele"
     exact = balance.x_linked_balance(mu, s, h, F, nu, options["alpha"]).q_male
@@ -52,7 +53,8 @@ def equilibrium_figure(options: dict):
     import matplotlib
 
     mu, s, F, nu = (options[k] for k in ("mu", "s", "F", "nu"))
-    h = np.linspace(0.0, 1.0, _POINTS)
+    # h outside [0, 1] (general genotype fitness, autosomal) widens the axis to reach it
+    h = np.linspace(min(0.0, options["h"]), max(1.0, options["h"]), _POINTS)
     exact, found, ylabel = _curves(options, h)
     figure = new_figure(figsize=(7.0, 5.6))
     top, strip = figure.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [4, 1.2]})
@@ -83,7 +85,7 @@ def equilibrium_figure(options: dict):
     strip.set_ylim(-0.1, len(found))
     strip.set_ylabel("outside range", fontsize=8)
     strip.set_xlabel("dominance coefficient h")
-    strip.set_xlim(0.0, 1.0)
+    strip.set_xlim(float(h[0]), float(h[-1]))
     figure.tight_layout()
     return figure
 

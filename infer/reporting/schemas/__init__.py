@@ -20,7 +20,9 @@ SCHEMAS = {
     "timing": "timing.json of qhat estimate and qhat batch",
     "equilibrium": "qhat equilibrium --json",
     "simulate": "qhat simulate --json",
+    "forecast": "forecast.json of qhat forecast, and qhat forecast --json",
     "demo": "qhat demo --json",
+    "compare": "compare.json of qhat compare --out, and qhat compare --json",
 }
 
 
