@@ -90,6 +90,26 @@ def _table(header: list[str], rows: list[list[str]]) -> list[str]:
     return lines
 
 
+def _comparison(c: dict, title: str, first: tuple, second: tuple, pct: str,
+                over: str) -> list[str]:
+    """A section comparing two fits: its statement, then medians and intervals side by side.
+
+    ``first`` and ``second`` are (key in ``c``, column label); rows are the parameters of
+    ``c[over]``.
+    """
+    lines = ["", f"## {title}", "", c["statement"]]
+
+    def cells(key, name):
+        entry = c[key][name]
+        return [fmt(entry["median"]), f"{fmt(entry['lower'])} – {fmt(entry['upper'])}"]
+
+    rows = [[name, *cells(first[0], name), *cells(second[0], name)] for name in c[over]]
+    if rows:
+        lines += [""] + _table(["parameter", f"{first[1]} median", f"{first[1]} {pct}",
+                                f"{second[1]} median", f"{second[1]} {pct}"], rows)
+    return lines
+
+
 def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -> str:
     """The text of report.md."""
     s = result.summary
@@ -174,29 +194,14 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
     lines += direct_indirect_lines(s, pct)
 
     if "drift_comparison" in s:
-        c = s["drift_comparison"]
-        lines += ["", "## Drift against the deterministic balance", "", c["statement"]]
         # only the parameters free under both models are compared (no Ne in the balance)
-        rows = [[n, fmt(c["drift"][n]["median"]),
-                 f"{fmt(c['drift'][n]['lower'])} – {fmt(c['drift'][n]['upper'])}",
-                 fmt(c["deterministic"][n]["median"]),
-                 f"{fmt(c['deterministic'][n]['lower'])} – {fmt(c['deterministic'][n]['upper'])}"]
-                for n in c["deterministic"]]
-        if rows:
-            lines += [""] + _table(["parameter", "drift median", f"drift {pct}",
-                                    "deterministic median", f"deterministic {pct}"], rows)
-
+        lines += _comparison(s["drift_comparison"], "Drift against the deterministic balance",
+                             ("drift", "drift"), ("deterministic", "deterministic"), pct,
+                             over="deterministic")
     if "history_comparison" in s:
-        c = s["history_comparison"]
-        lines += ["", "## The history against equilibrium", "", c["statement"]]
-        rows = [[n, fmt(c["with_history"][n]["median"]),
-                 f"{fmt(c['with_history'][n]['lower'])} – {fmt(c['with_history'][n]['upper'])}",
-                 fmt(c["equilibrium"][n]["median"]),
-                 f"{fmt(c['equilibrium'][n]['lower'])} – {fmt(c['equilibrium'][n]['upper'])}"]
-                for n in c["with_history"]]
-        if rows:
-            lines += [""] + _table(["parameter", "history median", f"history {pct}",
-                                    "equilibrium median", f"equilibrium {pct}"], rows)
+        lines += _comparison(s["history_comparison"], "The history against equilibrium",
+                             ("with_history", "history"), ("equilibrium", "equilibrium"), pct,
+                             over="with_history")
 
     lines += ["", "## Diagnostics", ""]
     taus = ", ".join(f"{k} {v:.1f}" for k, v in diag["autocorr_time"].items())
