@@ -48,11 +48,29 @@ def _children_cpu():
     return usage.ru_utime + usage.ru_stime
 
 
-def run_cli(source, out, *extra):
-    """Wall and CPU seconds (all processes) of one ``qhat batch`` run in a fresh process."""
+#: ``python -c`` program: qhat batch with infer.commands.batch.SERIAL_WORK set to argv[1]
+_FORCED = ("import sys, infer.commands.batch as b; b.SERIAL_WORK = float(sys.argv[1]); "
+           "from infer.cli import main; sys.exit(main(sys.argv[2:]))")
+
+
+def run_cli(source, out, *extra, code=None, serial_work=None):
+    """Wall and CPU seconds (all processes) of one ``qhat batch`` run in a fresh process.
+
+    ``code``: a checkout of qhat (e.g. an earlier commit's worktree) imported instead of
+    this one. ``serial_work``: the one-process rule's threshold for this run (0 always
+    starts the --jobs workers, inf never does).
+    """
+    env = dict(os.environ)
+    if code is not None:
+        env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(code), env.get("PYTHONPATH")]))
+    head = [PYTHON, "-m", "infer"] if serial_work is None else \
+        [PYTHON, "-c", _FORCED, repr(float(serial_work))]
     cpu, start = _children_cpu(), time.perf_counter()
-    done = subprocess.run([PYTHON, "-m", "infer", "batch", str(source), "--out", str(out),
-                           "--force", "--quiet", *extra], capture_output=True, text=True)
+    # from the scratch folder: ``python -m`` puts the working folder first on sys.path,
+    # which would shadow ``code``
+    done = subprocess.run([*head, "batch", str(source), "--out", str(out),
+                           "--force", "--quiet", *extra], capture_output=True, text=True,
+                          env=env, cwd=Path(out).parent)
     if done.returncode:
         sys.exit(f"qhat batch failed: {done.stderr}")
     return time.perf_counter() - start, _children_cpu() - cpu
@@ -118,14 +136,30 @@ def main(argv=None):
     parser.add_argument("--sizes", type=int, nargs="+", default=[20_000, 200_000, 2_000_000])
     parser.add_argument("--big-repeats", type=int, default=1,
                         help="runs of files of 1,000,000 rows or more")
+    parser.add_argument("--baseline", type=Path, metavar="DIR",
+                        help="a checkout of an earlier qhat (e.g. `git worktree add DIR HEAD`) "
+                        "whose drift/deterministic ratio is measured alongside")
+    parser.add_argument("--crossover-sizes", type=int, nargs="*",
+                        default=[1_000, 2_000, 5_000, 10_000, 20_000],
+                        help="loci of the one-process / --jobs 2 comparison")
+    parser.add_argument("--crossover-only", action="store_true",
+                        help="only the one-process / --jobs 2 comparison")
+    parser.add_argument("--drift-only", action="store_true",
+                        help="only the drift / deterministic ratio")
     args = parser.parse_args(argv)
     work = Path(tempfile.mkdtemp(prefix="qhat-batch-bench-"))
     if args.memory_only:
         memory(work, args.sizes, args.repeats, args.big_repeats)
         return
+    if args.crossover_only:
+        crossover(work, args.crossover_sizes, args.repeats)
+        return
     data20 = demo.simulate(20_000, 1)
     source20 = work / "loci20k.csv"
     demo.write_csv(source20, data20)
+    if args.drift_only:
+        drift_against_deterministic(source20, work, args.repeats, args.baseline)
+        return
     print(f"machine: {os.cpu_count()} cores, load average {os.getloadavg()[0]:.1f} at start "
           "(other work on the machine inflates wall times; CPU seconds are steadier)")
 
@@ -145,11 +179,67 @@ def main(argv=None):
           f"{extrapolated / det:,.0f}x against the --jobs 2 run (goal >= 100x)", flush=True)
 
     if not args.skip_drift:
-        _report("drift (Ne = 10,000), 20,000 loci with mu intervals, --jobs 2, log-uniform",
-                [run_cli(source20, work / "out", "--jobs", "2", "--model", "drift",
-                         "--Ne", "10000")], "300 s")
-
+        drift_against_deterministic(source20, work, args.repeats, args.baseline)
+    crossover(work, args.crossover_sizes, args.repeats)
     memory(work, args.sizes, args.repeats, args.big_repeats)
+
+
+DRIFT = ("--model", "drift", "--Ne", "10000")
+
+
+def drift_against_deterministic(source, work, repeats, baseline=None):
+    """The drift model's wall time as a multiple of the deterministic run's (issue 19).
+
+    Both on the same 20,000 loci with --jobs 2, run alternately (det, drift, det, ...) so
+    that other work on the machine weighs on both alike; the ratio of the medians is the
+    figure, goal <= 3x. With ``baseline`` (a checkout of an earlier version) the same
+    pair of runs of that code is interleaved with these, and both ratios are printed.
+    """
+    codes = [("this tree", None)] + ([("baseline " + str(baseline), baseline)]
+                                     if baseline else [])
+    runs = {(label, model): [] for label, _ in codes for model in ("det", "drift")}
+    for _ in range(repeats):
+        for label, code in codes:
+            runs[(label, "det")].append(run_cli(source, work / "out", "--jobs", "2",
+                                                code=code))
+            runs[(label, "drift")].append(run_cli(source, work / "out", "--jobs", "2", *DRIFT,
+                                                  code=code))
+    for label, _ in codes:
+        det = _report(f"[{label}] deterministic, 20,000 loci, --jobs 2", runs[(label, "det")])
+        drift = _report(f"[{label}] drift (Ne = 10,000), 20,000 loci with mu intervals, "
+                        "--jobs 2", runs[(label, "drift")], "300 s")
+        print(f"[{label}] drift / deterministic: {drift / det:.1f}x (goal <= 3x)", flush=True)
+
+
+def crossover(work, sizes, repeats):
+    """--jobs 2 against one process for deterministic batches of ``sizes`` loci.
+
+    The workers are forced on (and off) through ``infer.commands.batch.SERIAL_WORK``, so
+    the figures show where two processes start to pay; runs alternate. The last column
+    is what ``local_processes`` picks for ``--jobs 2`` at that size.
+    """
+    sys.path.insert(0, str(ROOT))
+    from infer.commands.batch import local_processes
+    from infer.jobs.batch import run as batch
+
+    print("deterministic batches, one process against --jobs 2 (medians of "
+          f"{repeats}; runs alternate):", flush=True)
+    for loci in sizes:
+        data = demo.simulate(loci, 1)
+        source = work / f"cross{loci}.csv"
+        demo.write_csv(source, data)
+        one, two = [], []
+        for _ in range(repeats):
+            one.append(run_cli(source, work / "out", "--jobs", "2", serial_work=math.inf)[0])
+            two.append(run_cli(source, work / "out", "--jobs", "2", serial_work=0)[0])
+        sigma = batch.mu_sigma_from_interval(data["mu_lower"], data["mu_upper"])
+        settings = batch.with_half_width(batch.BatchSettings(), sigma, data["observed"])
+        picked = local_processes(2, loci, settings, 512)
+        a, b = statistics.median(one), statistics.median(two)
+        print(f"  {loci:>7,} loci: one process {a:.2f} s, two {b:.2f} s "
+              f"(two/one {b / a:.2f}); faster: {'two' if b < a else 'one'}; "
+              f"--jobs 2 now runs {picked} process(es)", flush=True)
+        source.unlink()
 
 
 def measured_run(source, out, *extra):

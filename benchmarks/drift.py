@@ -8,7 +8,16 @@ neutral closed form), the median cost of one call of the drift model's log poste
 (data_demo/kestrel-captive-drift.toml, 96 rows, as the sampler calls it), and the largest
 relative error against the mpmath reference on a random sample of rows.
 
-Usage: .venv/bin/python benchmarks/drift.py [--sample 12] [--runs 5]
+It then prints the cost of a drift study whose observation is ``affected`` (integrated by
+the general rule, ``log_expectation``) against the same study with an ``allele-count``
+instead (the binomial path), per row of a log-posterior call at 96 rows (as the sampler
+calls it) and at 10,000 rows; goal: affected within 2x the binomial path at 96 rows (issue
+19). With ``--baseline DIR`` (a checkout of an earlier qhat, e.g. ``git worktree add DIR
+HEAD``) the same figures of that code are measured in alternating fresh processes beside
+this tree's, so before and after come from one run.
+
+Usage: .venv/bin/python benchmarks/drift.py [--sample 12] [--runs 5] [--baseline DIR]
+       .venv/bin/python benchmarks/drift.py --paths-only [--baseline DIR] [--rounds 3]
 """
 
 from __future__ import annotations
@@ -21,8 +30,9 @@ import time
 import numpy as np
 from scipy import special
 
-sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", "tests"))
-sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
+sys.path.insert(0, os.path.join(os.path.dirname(__file__), "..", "tests", "core"))
+# after PYTHONPATH, so that --baseline's checkout is the one imported in its processes
+sys.path.append(os.path.join(os.path.dirname(__file__), ".."))
 
 import drift_reference as reference  # noqa: E402
 
@@ -51,11 +61,97 @@ def median_time(function, runs):
     return float(np.median(times))
 
 
+#: the drift study of the path comparison: everything but its one observation
+_PATH_STUDY = """
+title = "drift path benchmark"
+inheritance = "autosomal"
+model = "drift"
+[parameters]
+mu = {{ prior = "log-normal", median = 1e-5, sigma = 1.0 }}
+s  = {{ prior = "log-uniform", low = 1e-3, high = 1.0 }}
+h  = 0.3
+Ne = 400
+nu = 1e-7
+[[observations]]
+{observation}
+"""
+_PATHS = {
+    "affected": 'kind = "affected"\naffected = 12\ntotal = 20000\nmode = "dominant"',
+    "binomial": 'kind = "allele-count"\nobserved = 12\nsampled = 20000',
+}
+
+
+def path_costs(runs):
+    """Median µs per row of one log-posterior call, {(path, rows): µs}."""
+    from infer.files.study import parse_study
+
+    out = {}
+    for rows in (96, 10_000):
+        for path, observation in _PATHS.items():
+            model = Model(parse_study(_PATH_STUDY.format(observation=observation)))
+            # 96 rows near the posterior (the best of 40·96 prior draws, as a sampler
+            # starts); 10,000 rows drawn from the prior
+            z = model.initial_points(np.random.default_rng(0), rows, pool=40 if rows < 1000 else 2)
+            model.log_posterior(z)
+            calls = max(1, 2000 // rows)
+            # new rows at every call, as a sampler's proposals are (nothing is recalled)
+            rng = np.random.default_rng(1)
+            sets = [z + 1e-3 * rng.standard_normal(z.shape) for _ in range(calls * runs)]
+            batches = iter([sets[i * calls:(i + 1) * calls] for i in range(runs)])
+            seconds = median_time(lambda m=model, b=batches: [m.log_posterior(w)
+                                                              for w in next(b)], runs)
+            out[(path, rows)] = 1e6 * seconds / calls / rows
+    return out
+
+
+def compare_paths(runs, rounds, baseline=None):
+    """The affected/binomial ratio of this tree (and of ``baseline``), fresh processes taking
+    turns; medians over ``rounds`` rounds."""
+    import json
+    import statistics
+    import subprocess
+
+    codes = [("this tree", None)] + ([(f"baseline {baseline}", baseline)] if baseline else [])
+    figures = {label: [] for label, _ in codes}
+    for _ in range(rounds):
+        for label, code in codes:
+            env = dict(os.environ)
+            if code is not None:
+                env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(code),
+                                                                  env.get("PYTHONPATH")]))
+            done = subprocess.run([sys.executable, __file__, "--paths-json", "--runs", str(runs)],
+                                  capture_output=True, text=True, env=env, check=True)
+            figures[label].append(json.loads(done.stdout))
+    for label, _ in codes:
+        for rows in (96, 10_000):
+            aff = statistics.median(f[f"affected {rows}"] for f in figures[label])
+            bino = statistics.median(f[f"binomial {rows}"] for f in figures[label])
+            goal = " (goal <= 2x)" if rows == 96 else ""
+            print(f"[{label}] drift study, {rows:,} rows: affected {aff:.1f} us/row, "
+                  f"allele-count {bino:.1f} us/row: ratio {aff / bino:.2f}x{goal}", flush=True)
+
+
 def main():
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--sample", type=int, default=12, help="rows checked against mpmath")
     parser.add_argument("--runs", type=int, default=5, help="timed runs (median reported)")
+    parser.add_argument("--baseline", metavar="DIR",
+                        help="a checkout of an earlier qhat measured beside this one")
+    parser.add_argument("--rounds", type=int, default=3,
+                        help="alternating processes per code for the path comparison")
+    parser.add_argument("--paths-only", action="store_true",
+                        help="only the affected / allele-count comparison")
+    parser.add_argument("--paths-json", action="store_true", help=argparse.SUPPRESS)
     options = parser.parse_args()
+    if options.paths_json:  # one measuring process of compare_paths
+        import json
+
+        costs = path_costs(options.runs)
+        print(json.dumps({f"{path} {rows}": value for (path, rows), value in costs.items()}))
+        return
+    if options.paths_only:
+        compare_paths(options.runs, options.rounds, options.baseline)
+        return
     rng = np.random.default_rng(1)
     print(f"{'rows':>6} {'function':<28} {'median s':>9} {'us/row':>8} {'x betaln':>9}")
     for rows in (1_000, 10_000):
@@ -94,6 +190,7 @@ def main():
         f"max relative error vs mpmath over {options.sample} random rows: "
         f"normaliser {worst_z:.2e}, binomial probability {worst_p:.2e}"
     )
+    compare_paths(options.runs, options.rounds, options.baseline)
 
 
 if __name__ == "__main__":

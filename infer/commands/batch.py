@@ -20,7 +20,7 @@ from infer.commands import options as checks
 from infer.core.choices import MODELS
 from infer.core.text import caution_sentence, shown
 
-__all__ = ["add_arguments", "run"]
+__all__ = ["add_arguments", "run", "local_processes", "SERIAL_WORK"]
 
 def add_arguments(parser) -> None:
     """Register the options of ``qhat batch`` (checked by :func:`_check_options`)."""
@@ -43,7 +43,10 @@ def add_arguments(parser) -> None:
     add("--interval", default=0.95, metavar="P", help="credible level (0.95)")
     add("--mu-level", default=0.95, metavar="P",
         help="level of the mu_lower..mu_upper intervals in the file (0.95)")
-    add("--jobs", default=1, metavar="N", help="local processes")
+    add("--jobs", default=1, metavar="N",
+        help="local processes, at most; a deterministic batch too small to gain from them "
+        "(below about 18,000 loci on the default grid) runs in one process, which is "
+        "faster there, and no batch uses more processes than it has chunks")
     add("--scheduler", metavar="ADDRESS",
         help="dask.distributed scheduler address (needs qhat[dist])")
     add("--chunk-size", default=512, metavar="N",
@@ -111,6 +114,32 @@ def _probe_scheduler(address: str) -> None:
     if problem is not None:
         raise checks.option_error("--scheduler", f"cannot reach a dask scheduler at "
                                   f"{address} ({problem})")
+
+
+#: multiply-adds of a deterministic batch (loci x S x (2J + 1), as
+#: ``infer.jobs.batch.run.WORK_PER_CALL`` counts them) below which it runs in one process
+#: whatever --jobs asks: starting the workers (a forkserver importing numpy and scipy,
+#: then the workers) costs more than a second core saves. benchmarks/batch.py
+#: --crossover-only measures it: on the 2-core machine (shared with other work) one
+#: process was faster up to 10,000 loci of the default grid (S = 400, J = 67 for mu
+#: intervals of sigma 0.3: 54,000 a locus), the two took as long at 20,000 and two were
+#: faster at 40,000; this is about 18,500 loci.
+SERIAL_WORK = 1.0e9
+
+
+def local_processes(requested: int, loci: int, settings, chunk_size: int) -> int:
+    """Local processes a batch runs in: ``requested``, or fewer where more would be slower.
+
+    One process for a deterministic batch of less than :data:`SERIAL_WORK` multiply-adds;
+    never more processes than chunks (a drift batch's chunk is seconds of work, so it
+    always uses what was asked up to that).
+    """
+    chunks = max(1, -(-loci // chunk_size))
+    if settings.model == "deterministic":
+        work = loci * settings.grid_points * (2 * settings.half_width + 1)
+        if work < SERIAL_WORK:
+            return 1
+    return max(1, min(requested, chunks))
 
 
 #: rows of the loci file read into one stored block (a whole number of chunks)
@@ -353,6 +382,8 @@ def _in_work_folder(args, out, started, scratch):
                                 interval=args.interval),
             np.array([largest]), np.array([scan.max_observed]))
         per_pass = -(-scan.count // args.chunk_size)
+        if not args.scheduler:
+            args.jobs = local_processes(args.jobs, scan.count, settings, args.chunk_size)
         report = _compute(args, out, scan, loci_store, scratch, settings, per_pass,
                           read_done - started)
     return scan.count, report

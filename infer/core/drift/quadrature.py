@@ -83,26 +83,27 @@ def _log_f(y, A, B, c, h):
 def _log_f_rows(y, coefficients):
     """L(y) from the constants of :func:`_coefficients` (broadcast against y).
 
-    With e = exp(-|y|): log x = min(y, 0) - log(1+e), log(1-x) = min(-y, 0) - log(1+e).
+    With t = log(1 + e^(-|y|)): log x = min(y, 0) - t, log(1-x) = min(-y, 0) - t, and
+    min(-y, 0) = min(y, 0) - y exactly, so no large term is ever cancelled.
     """
     A, minus_B, A_plus_B, k1, h2, c = coefficients
-    positive = y >= 0
-    e = np.abs(y)
-    np.negative(e, out=e)
-    np.exp(e, out=e)
-    d = e + 1
-    x = np.divide(e, d)
-    np.divide(1.0, d, out=x, where=positive)
-    out = A * y
-    np.multiply(minus_B, y, out=out, where=positive)
-    log_d = np.log(d, out=d)
-    log_d *= A_plus_B
-    out -= log_d
+    t = np.abs(y)
+    np.negative(t, out=t)
+    np.exp(t, out=t)
+    np.log1p(t, out=t)
+    t *= A_plus_B
+    x = special.expit(y)
+    low = np.minimum(y, 0.0)
+    out = A * low
+    low -= y
+    low *= minus_B
+    out -= low
+    out -= t
     s = k1 * x
     s += h2
-    cx = c * x
-    cx *= s
-    out -= cx
+    s *= x
+    s *= c
+    out -= s
     return out
 
 
@@ -112,6 +113,14 @@ class _Slopes:
     def __init__(self, coefficients):
         self.A, minus_B, A_plus_B, k1, self.h2, self.c = coefficients
         self.B, self.k2, self.minus_ab = -minus_B, 2 * k1, -A_plus_B
+
+    def subset(self, keep):
+        """The slopes of the rows ``keep`` (a boolean mask) only."""
+        out = _Slopes.__new__(_Slopes)
+        for name in ("A", "B", "h2", "c", "k2", "minus_ab"):
+            value = getattr(self, name)
+            setattr(out, name, value[keep] if np.ndim(value) else value)
+        return out
 
     def __call__(self, y):
         x, x1 = special.expit(y), special.expit(-y)
@@ -147,20 +156,31 @@ def _peak(y_lo, y_hi, coefficients):
     hi = flat[at + rows * (best < _PROBES - 1)]
     y = flat[at]
     slopes = _Slopes(coefficients)
+    # Newton on the rows not yet converged only (each row stops at its own first
+    # converged step); the results are written back as rows finish
+    index, active = np.arange(rows), slopes
+    ya, loa, hia = y.copy(), lo.copy(), hi.copy()
     for _ in range(_NEWTON_STEPS):
         # the template only needs y* to a small fraction of the peak's scale
-        d1, d2 = slopes(y)
+        d1, d2 = active(ya)
         tolerance = 0.01 * np.minimum(1 / np.sqrt(np.abs(d2) + 1e-300), _MAX_PEAK_SCALE)
         rising = d1 > 0
-        lo = np.where(rising, y, lo)
-        hi = np.where(rising, hi, y)
-        step = y - d1 / d2
-        ok = (d2 < 0) & (step > lo) & (step < hi)
-        y_new = np.where(ok, step, 0.5 * (lo + hi))
-        done = (np.abs(y_new - y) <= tolerance) | (hi - lo <= tolerance)
-        y = y_new
+        loa = np.where(rising, ya, loa)
+        hia = np.where(rising, hia, ya)
+        step = ya - d1 / d2
+        ok = (d2 < 0) & (step > loa) & (step < hia)
+        y_new = np.where(ok, step, 0.5 * (loa + hia))
+        done = (np.abs(y_new - ya) <= tolerance) | (hia - loa <= tolerance)
+        ya = y_new
         if done.all():
             break
+        if done.any():
+            finished = index[done]
+            y[finished], lo[finished], hi[finished] = ya[done], loa[done], hia[done]
+            keep = ~done
+            index, ya, loa, hia = index[keep], ya[keep], loa[keep], hia[keep]
+            active = active.subset(keep)
+    y[index], lo[index], hi[index] = ya, loa, hia
     d1, d2 = slopes(y)
     scale = 1 / np.sqrt(np.maximum(-d2, 0) + d1**2 + 1e-300)
     top = np.maximum(_log_f_rows(y, coefficients), np.maximum.reduce(values, axis=0))
@@ -237,29 +257,40 @@ def _log_sum(log_values, weights):
 def _integrate(panels, coefficients):
     """Log ∫ exp(L(y)) dy over the panels (left, right), in row chunks that stay in cache.
 
-    Nodes are laid out (n, rows·P), node i of every panel in one contiguous row, so each
-    operation runs over rows·P elements with per-panel coefficients; the weights
-    half-width × w_i are applied as one matrix-vector product and never stored.
+    Only panels of nonzero width are integrated (rows differ in their panel counts, and
+    a CDF's clipped panels are mostly empty): their nodes are laid out (n, panels), node
+    i of every panel in one contiguous row, so each operation runs over all the panels
+    of a chunk with per-panel coefficients; the weights half-width × w_i are applied as
+    one matrix-vector product and never stored. A row without a wide panel gives -inf.
     """
     lo, hi = panels
     rows, count = lo.shape
-    out, tops = np.empty(rows), np.empty(rows)
+    out, tops = np.zeros(rows), np.zeros(rows)
     chunk = max(1, _CHUNK_NODES // (count * _GL_T.size))
     for start in range(0, rows, chunk):
         r = slice(start, start + chunk)
         left, right = lo[r], hi[r]
-        mid, half = 0.5 * (right + left).ravel(), 0.5 * (right - left).ravel()
+        wide = right > left
+        counts = np.add.reduce(wide, axis=1)
+        left, right = left[wide], right[wide]
+        if not left.size:
+            continue
+        mid, half = 0.5 * (right + left), 0.5 * (right - left)
         nodes = np.multiply.outer(_GL_T, half)
         nodes += mid
-        values = _log_f_rows(nodes, [v[r].repeat(count) for v in coefficients])
-        top = np.maximum.reduce(np.maximum.reduce(values, axis=0).reshape(left.shape), axis=1)
+        values = _log_f_rows(nodes, [v[r].repeat(counts) for v in coefficients])
+        # each row's panels are consecutive: reduce over them from the first one's index
+        some = counts > 0
+        starts = (np.cumsum(counts) - counts)[some]
+        top = np.maximum.reduceat(np.maximum.reduce(values, axis=0), starts)
         top[~np.isfinite(top)] = 0.0
-        tops[r] = top
-        values -= top.repeat(count)
+        values -= top.repeat(counts[some])
         np.exp(values, out=values)
         sums = _GL_W @ values
         sums *= half
-        out[r] = np.add.reduce(sums.reshape(left.shape), axis=1)
+        where = np.flatnonzero(some) + start
+        tops[where] = top
+        out[where] = np.add.reduceat(sums, starts)
     with np.errstate(divide="ignore"):
         np.log(out, out=out)
     out += tops

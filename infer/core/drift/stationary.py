@@ -48,6 +48,12 @@ as b + (n - k), never (b + n) - k, which would lose b when b ≪ 1 ≪ n.
 The mean is Z(a+1)/Z(a) and sd² = mean·(Z(a+2)/Z(a+1) - mean); quantiles invert the CDF by
 the end series at the ends and by Newton in y on the clipped panels inside.
 
+Shared normalisers: Z(a, b) does not depend on the data. ``log_binomial_probability``
+takes it as ``log_z=`` when the caller knows it (``qhat batch`` interpolates it from a
+table along mu, :mod:`infer.core.drift.normaliser_table`); otherwise the normaliser of
+the last few sets of rows is remembered, so the frequency-dependent observations of one
+log-posterior call (the same rows) compute it once.
+
 Large Ne: rows whose density is one narrow interior peak and whose exponents reach
 :data:`infer.core.drift.concentrated.LIMIT` (the rule and its tests are in that module)
 are integrated around the mode instead, where these integrals of size-Ne exponents lose
@@ -55,6 +61,8 @@ their digits; every public function below splits its rows between the two rules.
 """
 
 from __future__ import annotations
+
+import threading
 
 import numpy as np
 from scipy import special
@@ -317,7 +325,7 @@ def _check_counts(k, n):
     return k, n
 
 
-def log_binomial_probability(k, n, Ne, mu, s, h, nu):
+def log_binomial_probability(k, n, Ne, mu, s, h, nu, *, log_z=None):
     """Log probability of k copies in a sample of n genes, integrated over φ.
 
     log ∫ C(n,k) x^k (1-x)^(n-k) φ(x) dx = log C(n,k) + log Z(a+k, b+n-k) - log Z(a, b).
@@ -328,6 +336,10 @@ def log_binomial_probability(k, n, Ne, mu, s, h, nu):
         Observed copies and sampled genes (whole numbers, 0 ≤ k ≤ n).
     Ne, mu, s, h, nu : array_like
         As in :func:`log_normaliser`; everything broadcasts.
+    log_z : array_like, optional
+        :func:`log_normaliser` of these parameters when it is already known (for example
+        tabulated by :mod:`infer.core.drift.normaliser_table`, or shared by several
+        observations of the same rows); broadcasts with the rest. Computed when None.
 
     Returns
     -------
@@ -335,30 +347,85 @@ def log_binomial_probability(k, n, Ne, mu, s, h, nu):
         The log probability, broadcast shape.
     """
     k, n = _check_counts(k, n)
+    extra = () if log_z is None else (log_z,)
     if k.ndim == n.ndim == 0:
-        shape, a, b, c, h, _ = _exponents(Ne, mu, s, h, nu)
+        shape, a, b, c, h, extra = _exponents(Ne, mu, s, h, nu, *extra)
     else:
-        shape, a, b, c, h, (k, n) = _exponents(Ne, mu, s, h, nu, k, n)
+        shape, a, b, c, h, (k, n, *extra) = _exponents(Ne, mu, s, h, nu, k, n, *extra)
+    given = extra[0] if extra else None
     mask, peak = _peak_rule.concentrated(a, b, c, h)
     if peak is None:
-        return (log_choose(n, k) + _log_ratio(k, n, a, b, c, h)).reshape(shape)
+        return (log_choose(n, k) + _log_ratio(k, n, a, b, c, h, given)).reshape(shape)
     k, n = np.broadcast_to(k, a.shape), np.broadcast_to(n, a.shape)
     out = np.empty(a.size)
     rest = ~mask
     out[mask], resolved = _peak_rule.log_binomial(peak, k[mask], n[mask])
     rest[np.flatnonzero(mask)[~resolved]] = True  # the sample pulls off the peak's window
     if rest.any():
-        out[rest] = _log_ratio(k[rest], n[rest], a[rest], b[rest], c[rest], h[rest])
+        out[rest] = _log_ratio(k[rest], n[rest], a[rest], b[rest], c[rest], h[rest],
+                               None if given is None else given[rest])
     return (log_choose(n, k) + out).reshape(shape)
 
 
-def _log_ratio(k, n, a, b, c, h):
-    """Log Z(a+k, b+n-k) - log Z(a, b) by the general quadrature (flat rows)."""
+def _log_ratio(k, n, a, b, c, h, log_z=None):
+    """Log Z(a+k, b+n-k) - log Z(a, b) by the general quadrature (flat rows).
+
+    ``log_z``, when given, is log Z(a, b): only the sample's integral is computed.
+    """
+    if log_z is None:
+        log_z = _recalled_log_z(a, b, c, h)
+    if log_z is not None:
+        return _log_z(a + k, b + (n - k), c, h) - log_z
     log_z = _log_z(
         np.concatenate((a + k, a)), np.concatenate((b + (n - k), b)), np.concatenate((c, c)),
         np.concatenate((h, h)),
     )
+    _remember_log_z(a, b, c, h, log_z[a.size :])
     return log_z[: a.size] - log_z[a.size :]
+
+
+#: log Z(a, b) of the last few sets of rows: every frequency-dependent observation of one
+#: log-posterior call integrates over the same density, so its normaliser is computed once
+#: (a pure function of the rows; kept for sets of up to _RECALL_ROWS rows)
+_RECALLED: dict = {}
+_RECALL_SETS = 4
+_RECALL_ROWS = 65536
+_RECALL_LOCK = threading.Lock()  # threads of one process (a dask worker) share it
+
+
+def _recall_key(a, b, c, h):
+    if a.size > _RECALL_ROWS:
+        return None
+    return a.tobytes(), b.tobytes(), c.tobytes(), h.tobytes()
+
+
+def _recalled_log_z(a, b, c, h):
+    """The remembered log Z(a, b) of exactly these rows, or None."""
+    key = _recall_key(a, b, c, h)
+    if key is None:
+        return None
+    with _RECALL_LOCK:
+        return _RECALLED.get(key)
+
+
+def _remember_log_z(a, b, c, h, log_z):
+    key = _recall_key(a, b, c, h)
+    if key is not None:
+        kept = np.array(log_z, dtype=float)
+        kept.flags.writeable = False
+        with _RECALL_LOCK:
+            if len(_RECALLED) >= _RECALL_SETS:
+                _RECALLED.pop(next(iter(_RECALLED)))
+            _RECALLED[key] = kept
+
+
+def _shared_log_z(a, b, c, h):
+    """Log Z(a, b) of flat rows, remembered for the next observation of the same rows."""
+    log_z = _recalled_log_z(a, b, c, h)
+    if log_z is None:
+        log_z = _log_z(a, b, c, h)
+        _remember_log_z(a, b, c, h, log_z)
+    return log_z
 
 
 def probability_absent(sample_alleles, Ne, mu, s, h, nu):
@@ -391,14 +458,20 @@ def _gauss_jacobi(beta, order=4):
     return 0.5 * (1 + t), vectors[:, 0, :] ** 2 / (beta[:, None] + 1)
 
 
-def _parabola_peak(log_f, y_lo, y_hi):
+_PROBE_FRACTIONS = np.linspace(0, 1, 2 * _PROBES)
+_THREE = np.array([-1.0, 0.0, 1.0])
+
+
+def _parabola_peak(log_f, probes, values, y_lo, y_hi):
     """Peak, scale and range that matters of an arbitrary smooth log integrand.
 
-    Probe grid, then parabola fits through the best point and its neighbours at a
-    shrinking spacing; the range is cut where the probes fall _NEGLIGIBLE below the top.
+    ``values`` is ``log_f`` at the probe grid ``probes`` (rows, 2·_PROBES); parabola fits
+    through the best point and its neighbours at a shrinking spacing follow, each moving
+    the peak by up to one probe spacing (the peak lies that close to the best probe; a
+    fit at the peak's own scale may thus reach it from many scales away), until every
+    row's move is below 1 % of its scale; the range is cut where the probes fall
+    _NEGLIGIBLE below the top.
     """
-    probes = y_lo[:, None] + (y_hi - y_lo)[:, None] * np.linspace(0, 1, 2 * _PROBES)
-    values = log_f(probes)
     rows = np.arange(len(y_lo))
     best = np.argmax(values, axis=1)
     y = probes[rows, best]
@@ -407,19 +480,24 @@ def _parabola_peak(log_f, y_lo, y_hi):
     width = np.full_like(y, _MAX_PEAK_SCALE)
     top = values[rows, best]
     for _ in range(5):
-        pts = np.clip(
-            y[:, None] + step[:, None] * np.array([-1.0, 0.0, 1.0]), y_lo[:, None], y_hi[:, None]
-        )
+        pts = np.minimum(np.maximum(y[:, None] + step[:, None] * _THREE, y_lo[:, None]),
+                         y_hi[:, None])
         f = np.maximum(log_f(pts), -1e300)
         top = np.maximum(top, f.max(axis=1))
-        curv = (f[:, 0] - 2 * f[:, 1] + f[:, 2]) / step**2
+        f0, f1, f2 = f[:, 0], f[:, 1], f[:, 2]
+        second = f0 - 2 * f1 + f2
+        curv = second / step**2
         good = np.isfinite(curv) & (curv < 0)
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            shift = step * (f[:, 0] - f[:, 2]) / (2 * (f[:, 0] - 2 * f[:, 1] + f[:, 2]))
-            sigma = 1 / np.sqrt(-curv)
-        y = np.where(good & (np.abs(shift) <= step), np.clip(y + shift, y_lo, y_hi), y)
-        width = np.where(good, np.clip(sigma, 1e-5, _MAX_PEAK_SCALE), _MAX_PEAK_SCALE)
+        shift = step * (f0 - f2) / (2 * second)
+        sigma = 1 / np.sqrt(-curv)
+        y = np.where(good & (np.abs(shift) <= spacing),
+                     np.minimum(np.maximum(y + shift, y_lo), y_hi), y)
+        width = np.where(good, np.minimum(np.maximum(sigma, 1e-5), _MAX_PEAK_SCALE),
+                         _MAX_PEAK_SCALE)
+        settled = np.all((np.abs(shift) <= 0.01 * width) | ~good) and np.all(step <= width)
         step = np.maximum(np.minimum(width, step), 1e-6)
+        if settled:  # every row's peak moved by < 1 % of its scale at its own scale
+            break
     keep = values >= (top - _NEGLIGIBLE)[:, None]
     last_probe = probes.shape[1] - 1
     first = np.maximum(np.argmax(keep, axis=1) - 1, 0)
@@ -487,7 +565,27 @@ def _on_rows(log_p_given_x, rows):
     return log_p
 
 
+#: end widths tried, as fractions of the analytic end width: 9 levels 100x apart, and
+#: five points across each (where log P must vary by < 0.05)
+_SHRINK = (10.0 ** (-2 * np.arange(9)))[:, None] * np.array([1.0, 0.3, 0.1, 0.03, 0.01])
+
+
+def _gauss_jacobi_rows(beta):
+    """:func:`_gauss_jacobi` of each row, computed once per distinct beta."""
+    distinct, where = np.unique(beta, return_inverse=True)
+    if distinct.size == beta.size:
+        return _gauss_jacobi(beta)
+    u, w = _gauss_jacobi(distinct)
+    return u[where], w[where]
+
+
 def _log_expectation(log_p_given_x, a, b, c, h):
+    """Log ∫ P φ dx by the general rule (flat rows; see :func:`log_expectation`).
+
+    The callable is asked four times for all rows at once, then five times by the peak
+    search: the end-width candidates of both ends; the Gauss–Jacobi nodes of both ends
+    with the interior probes; the parabola fits; the interior nodes.
+    """
     rows = a.size
 
     def log_p(x):
@@ -498,37 +596,42 @@ def _log_expectation(log_p_given_x, a, b, c, h):
             )
         return out
 
-    shrink = 10.0 ** (-2 * np.arange(9))
-
-    def end_width(x0, to_x):
-        cand = x0[:, None, None] * shrink[:, None] * np.array([1.0, 0.3, 0.1, 0.03, 0.01])
-        vals = log_p(to_x(cand.reshape(rows, -1))).reshape(cand.shape)
-        spread = vals.max(axis=2) - vals.min(axis=2)
-        flat = (spread <= 0.05) | np.all(np.isneginf(vals), axis=2)
-        first = np.where(flat.any(axis=1), np.argmax(flat, axis=1), shrink.size - 1)
-        return cand[np.arange(rows), first, 0]
-
-    x0 = end_width(_end_width(b, c, h), lambda x: x)
-    z0 = end_width(_end_width(a, -c, 1 - h), lambda z: 1 - z)
-    cols = (a[:, None], b[:, None], c[:, None], h[:, None])
-
-    def log_end(A, B, cc, hh, w0, to_x):
-        u, wts = _gauss_jacobi(A - 1)
-        z = w0[:, None] * u
-        g = (B[:, None] - 1) * np.log1p(-z) - cc[:, None] * z * (
-            2 * hh[:, None] + (1 - 2 * hh[:, None]) * z
-        )
-        return A * np.log(w0) + _log_sum(g + log_p(to_x(z)), wts)
-
-    left = log_end(a, b, c, h, x0, lambda x: x)
-    right = -c + log_end(b, a, -c, 1 - h, z0, lambda z: 1 - z)
+    # end widths: left x = x0·f, right x = 1 - z0·f (f in _SHRINK), in one call
+    base = np.stack((_end_width(b, c, h), _end_width(a, -c, 1 - h)))      # (2, rows)
+    cand = base[:, :, None] * _SHRINK.ravel()                              # (2, rows, 45)
+    points = cand.copy()
+    points[1] = 1 - points[1]
+    vals = log_p(np.concatenate((points[0], points[1]), axis=1))
+    vals = vals.reshape(rows, 2, 9, 5).transpose(1, 0, 2, 3)              # (2, rows, 9, 5)
+    spread = vals.max(axis=3) - vals.min(axis=3)
+    flat = (spread <= 0.05) | np.all(np.isneginf(vals), axis=3)
+    first = np.where(flat.any(axis=2), np.argmax(flat, axis=2), _SHRINK.shape[0] - 1)
+    widths = np.take_along_axis(cand, 5 * first[:, :, None], axis=2)[:, :, 0]
+    x0, z0 = widths
+    # the ends' Gauss–Jacobi nodes (weights x^(a-1), (1-x)^(b-1)) and the interior probes
+    A2, B2 = np.concatenate((a, b)), np.concatenate((b, a))
+    c2, h2 = np.concatenate((c, -c)), np.concatenate((h, 1 - h))
+    u, wts = _gauss_jacobi_rows(A2 - 1)
+    z = widths.reshape(-1, 1) * u                                         # (2 rows, 4)
+    g = (B2[:, None] - 1) * np.log1p(-z) - c2[:, None] * z * (
+        2 * h2[:, None] + (1 - 2 * h2[:, None]) * z
+    )
+    g += (A2 * np.log(widths.ravel()))[:, None]
+    g[rows:] -= c[:, None]
     y_lo, y_hi = np.log(x0) - np.log1p(-x0), np.log1p(-z0) - np.log(z0)
+    probes = y_lo[:, None] + (y_hi - y_lo)[:, None] * _PROBE_FRACTIONS
+    cols = (a[:, None], b[:, None], c[:, None], h[:, None])
+    ends = z.shape[1]
+    both = log_p(np.concatenate((z[:rows], 1 - z[rows:], special.expit(probes)), axis=1))
+    g += np.concatenate((both[:, :ends], both[:, ends:2 * ends]))
+    values = _log_f(probes, *cols) + both[:, 2 * ends:]
 
     def log_f(y):
         return _log_f(y, *cols) + log_p(special.expit(y))
 
-    y_peak, width, t_lo, t_hi = _parabola_peak(log_f, y_lo, y_hi)
+    y_peak, width, t_lo, t_hi = _parabola_peak(log_f, probes, values, y_lo, y_hi)
     nodes, weights = _nodes(_panels(t_lo, t_hi, y_peak, width))
-    inner = _log_sum(log_f(nodes), weights)  # one call: the callable sees all rows at once
-    total = np.logaddexp(np.logaddexp(left, inner), right)
-    return total - _log_z(a, b, c, h)
+    # the two ends and the interior summed in one pass (one call: all rows at once)
+    terms = np.concatenate((g[:rows], g[rows:], log_f(nodes)), axis=1)
+    total = _log_sum(terms, np.concatenate((wts[:rows], wts[rows:], weights), axis=1))
+    return total - _shared_log_z(a, b, c, h)

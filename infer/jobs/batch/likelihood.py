@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-__all__ = ["likelihood_grid", "drift_coarse_log_likelihood", "TAILS"]
+__all__ = ["likelihood_grid", "drift_coarse_log_likelihood", "z_points", "TAILS"]
 
 TAILS = 6.0              # kernel cut, in sigmas of ln mu
 _DRIFT_U_SPACING = 0.33  # drift model: log L computed on grid nodes about this far apart in u
@@ -107,13 +107,18 @@ def drift_coarse_log_likelihood(k, n, mu, mu_sigma, settings):
 
     log L is smooth in u and in ln mu, so it is computed on grid nodes ~0.33 apart and,
     for uncertain mu, at 9 nodes z = -6..6 (ln mu = ln mu_c + sigma·z); cubic splines
-    of log L carry it to the full grid and to ``settings.z_points`` points in z, where
-    the log-normal weights integrate mu out (trapezoid). Interpolating the logarithm,
-    not L, keeps likelihoods much narrower than sigma accurate (log L is near-quadratic).
+    of log L carry it to the full grid and to a fine rule of ``z_points(mu_sigma, k)``
+    points in z (each locus's own, at most ``settings.z_points``), where the log-normal
+    weights integrate mu out (Simpson's rule, :func:`_simpson`). Interpolating the
+    logarithm, not L, keeps likelihoods much narrower than sigma accurate (log L is
+    near-quadratic). The normaliser of Wright's density, the same for every locus at a
+    given (mu, s_het), is interpolated from a table along mu
+    (:mod:`infer.core.drift.normaliser_table`), so each (locus, node) costs one
+    quadrature, the sample's.
     """
     from scipy.interpolate import CubicSpline
-    from scipy.special import logsumexp
 
+    from infer.core.drift.normaliser_table import tabulated_log_normaliser
     from infer.core.drift.stationary import log_binomial_probability
 
     k, n = np.asarray(k, dtype=float), np.asarray(n, dtype=float)
@@ -123,23 +128,67 @@ def drift_coarse_log_likelihood(k, n, mu, mu_sigma, settings):
     two_s = 2.0 * np.exp(u[coarse])
     log_l = np.empty((k.size, coarse.size))
     exact = mu_sigma == 0.0
+    z = np.linspace(-TAILS, TAILS, _DRIFT_Z_NODES)
+    nodes = mu[:, None] * np.exp(np.where(exact, 0.0, mu_sigma)[:, None] * z[None, :])
+    nodes[exact, 1:] = nodes[exact, :1]
+    log_z = tabulated_log_normaliser(settings.Ne, np.where(exact[:, None], nodes[:, :1], nodes),
+                                     two_s, 0.5, settings.nu)       # (loci, z, coarse)
     if np.any(exact):
         log_l[exact] = log_binomial_probability(k[exact, None], n[exact, None], settings.Ne,
-                                                mu[exact, None], two_s[None, :], 0.5, settings.nu)
-    z = np.linspace(-TAILS, TAILS, _DRIFT_Z_NODES)
-    fine = np.linspace(-TAILS, TAILS, settings.z_points)
-    log_w = -0.5 * fine * fine + np.log(np.r_[0.5, np.ones(fine.size - 2), 0.5])
-    log_w -= logsumexp(log_w)
+                                                mu[exact, None], two_s[None, :], 0.5, settings.nu,
+                                                log_z=log_z[exact, 0])
+    sizes = np.minimum(z_points(mu_sigma, k), settings.z_points)
     rows = np.flatnonzero(~exact)
-    for start in range(0, rows.size, _DRIFT_BLOCK):   # blocks of rows bound the memory
-        block = rows[start:start + _DRIFT_BLOCK]
-        nodes = mu[block, None] * np.exp(mu_sigma[block, None] * z[None, :])
-        at_nodes = log_binomial_probability(k[block, None, None], n[block, None, None],
-                                            settings.Ne, nodes[:, None, :],
-                                            two_s[None, :, None], 0.5, settings.nu)
-        between = CubicSpline(z, at_nodes, axis=2)(fine)
-        log_l[block] = logsumexp(between + log_w, axis=2)
+    for size in np.unique(sizes[rows]):
+        fine = np.linspace(-TAILS, TAILS, size)
+        weights = np.exp(-0.5 * fine * fine) * _simpson(size)
+        weights /= weights.sum()
+        # the not-a-knot spline is linear in its data: values at ``fine`` = data @ spline
+        spline = CubicSpline(z, np.eye(z.size), axis=0)(fine).T      # (z nodes, size)
+        same = rows[sizes[rows] == size]   # blocks of loci with one rule size
+        for start in range(0, same.size, _DRIFT_BLOCK):   # blocks of rows bound the memory
+            block = same[start:start + _DRIFT_BLOCK]
+            at_nodes = log_binomial_probability(
+                k[block, None, None], n[block, None, None], settings.Ne,
+                nodes[block, None, :], two_s[None, :, None], 0.5, settings.nu,
+                log_z=np.swapaxes(log_z[block], 1, 2))
+            between = at_nodes @ spline
+            top = np.max(between, axis=2)
+            top = np.where(np.isfinite(top), top, 0.0)
+            between -= top[:, :, None]
+            with np.errstate(divide="ignore"):
+                log_l[block] = np.log(np.exp(between, out=between) @ weights) + top
     return log_l
+
+
+def z_points(mu_sigma, observed):
+    """Points of each locus's fine z rule (rounded up to 128·2^j + 1, or 1201).
+
+    The spacing in ln mu stays below half the width of the locus's likelihood,
+    1/sqrt(k + 1): 129, 257, 513, 1025 or at most 1201 points. The rounding makes a
+    locus's rule depend on its own sigma and count only; every size puts an even
+    number of intervals between the 9 spline nodes (Simpson's rule).
+    """
+    spacing = 0.5 / np.maximum(np.asarray(mu_sigma, dtype=float)
+                               * np.sqrt(np.asarray(observed, dtype=float) + 1.0), 1e-12)
+    need = np.ceil(2 * TAILS / spacing) + 1
+    sizes = np.full(need.shape, 1201)
+    for size in (1025, 513, 257, 129):
+        sizes = np.where(need <= size, size, sizes)
+    return sizes
+
+
+def _simpson(size):
+    """Composite Simpson weights (up to the common factor) of ``size`` equally spaced points.
+
+    The spline of log L is a cubic between its nodes and every node is a grid point
+    with an even number of intervals between nodes, so each Simpson panel lies inside
+    one spline piece, where exp(spline) times the normal weight is smooth.
+    """
+    weights = np.ones(size)
+    weights[1:-1:2] = 4.0
+    weights[2:-1:2] = 2.0
+    return weights
 
 
 def _drift_nodes(settings):

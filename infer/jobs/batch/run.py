@@ -85,6 +85,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from infer.jobs.batch.likelihood import TAILS, drift_coarse_log_likelihood, likelihood_grid
+from infer.jobs.batch.likelihood import z_points as likelihood_z_points
 from infer.jobs.batch.prior import (
     FittedPrior,
     SHetPrior,
@@ -140,10 +141,11 @@ class BatchSettings:
         Kernel half width J in grid steps, shared by all loci of a run
         (``kernel_half_width`` of the largest sigma).
     z_points : int
-        Drift model: points in z = (ln mu - ln mu_c)/sigma over [-6, 6] at which the
-        interpolated log-likelihood is integrated; set by ``with_half_width`` from the
-        largest sigma and count, so that the spacing in ln mu stays below half the
-        likelihood's width 1/sqrt(k + 1).
+        Drift model: the most points in z = (ln mu - ln mu_c)/sigma over [-6, 6] at
+        which a locus's interpolated log-likelihood is integrated; each locus takes its
+        own count (``infer.jobs.batch.likelihood.z_points``: spacing in ln mu below half
+        the likelihood's width 1/sqrt(k + 1)), at most this; ``with_half_width`` sets it
+        to the largest locus's.
     """
 
     model: str = "deterministic"
@@ -249,8 +251,7 @@ def with_half_width(settings: BatchSettings, mu_sigma, observed=None) -> BatchSe
     """Copy of ``settings`` with the kernel half width (and drift z points) for every locus."""
     sigma = float(np.max(mu_sigma, initial=0.0))
     most = float(np.max(observed, initial=0.0)) if observed is not None else 0.0
-    spacing = 0.5 / max(sigma * math.sqrt(most + 1.0), 1e-12)
-    z_points = int(min(max(math.ceil(2 * TAILS / spacing) + 1, 121), 1201))
+    z_points = int(likelihood_z_points(sigma, most))  # the largest locus's own rule
     return replace(settings, half_width=kernel_half_width(mu_sigma, settings), z_points=z_points)
 
 

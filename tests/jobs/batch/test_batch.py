@@ -370,7 +370,11 @@ def _comparable(folder):
 
 
 @pytest.mark.slow
-def test_jobs_two_equals_jobs_one(tmp_path):
+def test_jobs_two_equals_jobs_one(tmp_path, monkeypatch):
+    import infer.commands.batch
+
+    # 600 loci would run in one process whatever --jobs says: start the workers anyway
+    monkeypatch.setattr(infer.commands.batch, "SERIAL_WORK", 0.0)
     source = _write_demo(tmp_path / "loci.csv", loci=600)
     one, two = tmp_path / "one", tmp_path / "two"
     assert main(["batch", str(source), "--out", str(one), "--prior", "empirical", "--quiet",
