@@ -1,7 +1,8 @@
 """``qhat compare STUDY.toml``: the study's data weighed under competing models.
 
 Models: ``balance`` (the study as written) and ``heterozygote-advantage`` (h < 0, a
-balanced polymorphism with mutation); a ``founder`` model is not yet built. Prints the
+balanced polymorphism with mutation) and ``founder`` (a founder event set the allele's
+frequency ``generations_ago`` generations ago, no equilibrium since). Prints the
 evidence of each, Bayes factors, posterior model probabilities under the prior odds and
 their sensitivity to the extra parameters' priors; ``--out DIR`` writes report.md,
 report.html and compare.json atomically; ``--json`` prints the document. The job is
@@ -23,8 +24,8 @@ def add_arguments(parser) -> None:
     parser.add_argument("study", metavar="STUDY.toml", help="the study file (TOML); an "
                         "optional [compare] table sets models, prior odds and extra priors")
     parser.add_argument("--models", metavar="LIST", help="comma-separated models to weigh: "
-                        "balance, heterozygote-advantage (default both; founder: not yet "
-                        "built, it needs the population-history model)")
+                        "balance, heterozygote-advantage, founder (default every one that "
+                        "applies; founder needs [compare] founder = { generations_ago = N })")
     parser.add_argument("--method", metavar="M", help="auto (quadrature up to three free "
                         "parameters, bridge sampling above; default), quadrature or bridge")
     parser.add_argument("--seed", metavar="N", help="seed of bridge sampling (default: the "

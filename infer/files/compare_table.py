@@ -6,6 +6,7 @@
     models = ["balance", "heterozygote-advantage"]      # default: every model built
     prior_odds = { balance = 1, heterozygote-advantage = 1 }   # default: equal
     heterozygote-advantage = { h = { prior = "uniform", low = -5, high = 0 } }
+    founder = { generations_ago = 20, q_founder = { prior = "uniform", low = 0, high = 0.5 } }
     sensitivity = 2          # each extra prior is also tried widened and narrowed by this
     method = "auto"          # "auto" | "quadrature" | "bridge"
 
@@ -31,16 +32,18 @@ MODELS = {
     "balance": "mutation-selection balance as the study states it (its own priors on mu, s, h)",
     "heterozygote-advantage": "the heterozygote fitter than both homozygotes (h < 0): a "
                               "balanced polymorphism with mutation, mu and s as in the study",
+    "founder": "a founder event generations_ago generations ago set the allele at q_founder; "
+               "since then the deterministic life cycle (mu, s, h as in the study) has carried "
+               "it to today, with no equilibrium assumed",
 }
-#: models named in the issue but not built yet, with the reason
-NOT_YET = {
-    "founder": "not yet built: it needs the population-history model, in progress separately",
-}
+#: models not built yet, with the reason
+NOT_YET: dict[str, str] = {}
 METHODS = ("auto", "quadrature", "bridge")
 #: the prior on each model's extra parameters, unless the table gives one
 DEFAULT_EXTRA_PRIORS: dict[str, dict[str, Prior]] = {
     "balance": {},
     "heterozygote-advantage": {"h": Uniform("h", -5.0, 0.0)},
+    "founder": {"q_founder": Uniform("q_founder", 0.0, 0.5)},
 }
 #: each extra prior is also tried with its width multiplied and divided by this
 DEFAULT_SENSITIVITY = 2.0
@@ -71,6 +74,8 @@ class CompareSettings:
         default_factory=lambda: {k: dict(v) for k, v in DEFAULT_EXTRA_PRIORS.items()})
     sensitivity: float = DEFAULT_SENSITIVITY
     method: str = "auto"
+    #: the founder model's age of the founding in generations (None: the model is skipped)
+    founder_generations: int | None = None
 
 
 def parse_models(value: Any, field_name: str) -> tuple[str, ...]:
@@ -124,6 +129,7 @@ def parse_compare_table(table: Any, *, field_name: str = "compare") -> CompareSe
                                  field=f"{where}.{name}")
             odds[name] = float(number)
     extra = {k: dict(v) for k, v in DEFAULT_EXTRA_PRIORS.items()}
+    founder_generations = None
     for name in MODELS:
         if name not in table:
             continue
@@ -131,8 +137,14 @@ def parse_compare_table(table: Any, *, field_name: str = "compare") -> CompareSe
         entries = table[name]
         if not isinstance(entries, dict):
             raise InputError(f"{quote_value(entries)} is not a table of priors", field=where)
-        check_keys(entries, (), tuple(DEFAULT_EXTRA_PRIORS[name]), where)
+        extra_keys = ("generations_ago",) if name == "founder" else ()
+        check_keys(entries, (), (*DEFAULT_EXTRA_PRIORS[name], *extra_keys), where)
+        if "generations_ago" in entries:
+            founder_generations = _generations_ago(entries["generations_ago"],
+                                                   f"{where}.generations_ago")
         for parameter, value in entries.items():
+            if parameter == "generations_ago":
+                continue
             prior = parse_parameter(parameter, value, field=f"{where}.{parameter}")
             if not isinstance(prior, Prior):
                 raise InputError(f"{quote_value(value)}: give a prior table, not a fixed value "
@@ -149,11 +161,28 @@ def parse_compare_table(table: Any, *, field_name: str = "compare") -> CompareSe
                              field=f"{field_name}.sensitivity")
     method = choice(table.get("method", "auto"), METHODS, f"{field_name}.method")
     return CompareSettings(models=models, prior_odds=odds, extra_priors=extra,
-                           sensitivity=float(sensitivity), method=method)
+                           sensitivity=float(sensitivity), method=method,
+                           founder_generations=founder_generations)
+
+
+def _generations_ago(value: Any, field_name: str) -> int:
+    """The founding's age: a whole number of generations, at least 1."""
+    number = real_number(value, field_name)
+    if number != int(number) or number < 1:
+        raise InputError(f"{quote_value(value)} is not a whole number of generations >= 1",
+                         field=field_name)
+    return int(number)
 
 
 def _check_extra_prior(model: str, prior: Prior, field_name: str) -> None:
-    """The heterozygote-advantage model's h must be a uniform prior within h <= 0."""
+    """Each model's extra prior is a uniform one within the range the model allows.
+
+    The heterozygote-advantage model's h within [-10, 0]; the founder model's q_founder
+    within [0, 1] (its sensitivity rows scale the width).
+    """
+    if model == "founder" and not isinstance(prior, Uniform):
+        raise InputError(f"{prior.describe()}: the founder model needs a uniform prior on "
+                         "q_founder within [0, 1]", field=field_name)
     if model == "heterozygote-advantage":
         if not isinstance(prior, Uniform) or prior.high > 0:
             raise InputError(f"{prior.describe()}: the heterozygote-advantage model needs a "

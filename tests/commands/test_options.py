@@ -71,9 +71,8 @@ CASES = {
         (["--mode", "both"], "--mode: 'both' is not one of dominant, recessive"),
     ],
     "compare": [
-        (["--models", "founder"], '--models: "founder" is not yet built: it needs the '
-         "population-history model, in progress separately; built: balance, "
-         "heterozygote-advantage"),
+        (["--models", "drift"], '--models: "drift" is not allowed; must be one of balance, '
+         "heterozygote-advantage, founder"),
         (["--models", "balance,balance"], '--models: "balance" is named twice'),
         (["--method", "nested"], "--method: 'nested' is not one of auto, quadrature, bridge"),
         (["--seed", "-3"], "--seed: -3 is negative"),

@@ -212,7 +212,7 @@ def compare_models(study, settings: CompareSettings | None = None,
     found, skipped = [], {}
     for name in settings.models:
         extra = settings.extra_priors.get(name, {})
-        variant = model_study(study, name, extra)
+        variant = model_study(study, name, extra, settings.founder_generations)
         if isinstance(variant, str):
             skipped[name] = variant
             continue
@@ -240,7 +240,8 @@ def compare_models(study, settings: CompareSettings | None = None,
         for parameter, prior in extra.items():
             for factor in (settings.sensitivity, 1.0 / settings.sensitivity):
                 scaled = scaled_prior(prior, factor)
-                variant = model_study(study, m.name, {**extra, parameter: scaled})
+                variant = model_study(study, m.name, {**extra, parameter: scaled},
+                                      settings.founder_generations)
                 estimate, _ = _evidence(Model(variant), settings.method, rng, study.sampler,
                                         study.interval, fit=False)
                 value = -math.inf if estimate is None else estimate.log_evidence

@@ -13,6 +13,7 @@ References:
 from __future__ import annotations
 
 import json
+import tomllib
 import math
 
 import numpy as np
@@ -113,7 +114,10 @@ def test_models_that_do_not_apply_are_skipped():
 
 
 @pytest.mark.parametrize("table, field, message", [
-    ({"models": ["founder"]}, "compare.models", "not yet built"),
+    ({"models": ["drift"]}, "compare.models", "is not allowed"),
+    ({"founder": {"generations_ago": 0}}, "compare.founder.generations_ago", "whole number"),
+    ({"founder": {"q_founder": {"prior": "beta", "a": 1, "b": 1}}},
+     "compare.founder.q_founder", "uniform prior"),
     ({"models": ["balance", "balance"]}, "compare.models", "named twice"),
     ({"prior_odds": {"balance": 0}}, "compare.prior_odds.balance", "is not above 0"),
     ({"sensitivity": 1}, "compare.sensitivity", "is not above 1"),
@@ -143,7 +147,7 @@ def test_command_line(tmp_path, capsys):
     report = (tmp_path / "report" / "report.md").read_text(encoding="utf-8")
     assert "**Caution.**" in report and "founder" in report
     status, out, err = call_qhat(["compare", path, "--models", "founder"], capsys)
-    assert status == 2 and "--models" in err and "not yet built" in err and not out
+    assert status == 2 and "compare.models" in err and "generations_ago" in err and not out
     bad = tmp_path / "bad.toml"
     bad.write_text(STUDY + "\n[compare]\nsensitivity = 0.5\n", encoding="utf-8")
     status, out, err = call_qhat(["compare", bad], capsys)
@@ -154,3 +158,45 @@ def test_command_line(tmp_path, capsys):
 def test_estimate_ignores_the_compare_table():
     study = parse_study(STUDY + "\n[compare]\nsensitivity = 3\n")
     assert np.isclose(study.parameters["s"].value, S)
+
+
+FOUNDER = """\
+title = "Invented founder test: a recessive allele-count"
+inheritance = "autosomal"
+
+[parameters]
+mu = 1e-6
+s = 0.6
+h = 0.0
+
+[[observations]]
+kind = "allele-count"
+observed = 40
+sampled = 1000
+
+[compare]
+models = ["founder"]
+founder = { generations_ago = 15, q_founder = { prior = "uniform", low = 0.0, high = 0.5 } }
+"""
+
+
+def test_founder_evidence_matches_an_independent_quadrature():
+    """Evidence of the founder model = ∫ Binomial(40 | 1000, q_15(q0)) dq0 / 0.5, with q_t
+    from the textbook recursion of selection on zygotes then mutation (Crow & Kimura 1970,
+    ch. 6), iterated here, and the integral by scipy.integrate.quad."""
+    def today(q0, mu=1e-6, s=0.6, generations=15):
+        q = q0
+        for _ in range(generations):
+            aa, het = q * q, 2 * q * (1 - q)
+            q_sel = (0.5 * het + aa * (1 - s)) / (1 - s * aa)
+            q = q_sel + (1 - q_sel) * mu
+        return q
+
+    reference = integrate.quad(lambda q0: stats.binom.pmf(40, 1000, today(q0)) / 0.5,
+                               0.0, 0.5, points=[0.03, 0.05, 0.08], limit=200)[0]
+    study = parse_study(FOUNDER, require_free=False)
+    settings = parse_compare_table(tomllib.loads(FOUNDER)["compare"])
+    result = compare_models(study, settings)
+    (model,) = result.models
+    assert model.name == "founder" and model.free == ("q_founder",)
+    assert model.log_evidence == pytest.approx(np.log(reference), abs=2e-3)
