@@ -240,6 +240,10 @@ def parse_claim(document: Any, *, source: str) -> Claim:
 def _parse(document: Any, source: str) -> Claim:
     if not isinstance(document, dict):
         raise InputError("a claim file must be a TOML document")
+    if "history" in document:
+        raise InputError("a claim is checked against the balance at equilibrium; a "
+                         "[history] is read by study files (qhat estimate, qhat compare), "
+                         "not yet by claims", field="history")
     reference = document.get("reference")
     if reference is not None and not isinstance(reference, str):
         raise InputError(f"{_fmt(reference)} is not a text", field="reference")

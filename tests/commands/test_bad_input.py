@@ -161,6 +161,10 @@ CLAIM_CASES = [
     ("negative s", "s = 0.85", "s = -0.85", "parameters.s"),
     ("count above total in a claim", "affected = 22", "affected = 221500",
      "observations[1].affected"),
+    # read as an equilibrium it would be checked against the wrong balance: refused
+    ("history in a claim", "[sampler]\nseed = 7",
+     "[sampler]\nseed = 7\n\n[history]\nepochs = [ { generations = 12 } ]",
+     "history: a claim is checked"),
 ]
 
 
