@@ -28,6 +28,7 @@ _DERIVED = {
     "q_male": "allele frequency among newborn sons",
     "q_female": "allele frequency among daughters' X chromosomes",
     "load": "mutation load, 1 - mean fitness",
+    "s_mean": "selection averaged over the sexes, (s_male + s_female)/2",
     "load_male": "mutation load in sons",
     "load_female": "mutation load in daughters",
     "affected_dominant": "affected fraction of newborns if dominant (Aa + aa)",
@@ -175,6 +176,12 @@ def report_markdown(result, plots: dict[str, str], timing: dict | None = None) -
                                           "deterministic value, for comparison)"
                                           if "drift_frequency" in s else "") + ":", ""]
     meaning = dict(_DERIVED, **(_DRIFT_MEANING if "drift_frequency" in s else {}))
+    if "history_comparison" in s:
+        meaning["q_hat"] = ("allele frequency among today's newborns under the history"
+                            if study.model != "drift" else
+                            "deterministic balance frequency at today's values (not the "
+                            "history's: its frequency today is under 'The history against "
+                            "equilibrium')")
     if overdominant(s["parameters"]):
         meaning["load"] = ("genetic load, 1 - mean fitness relative to the fittest genotype "
                            "(the heterozygote): segregational and mutational")
@@ -273,7 +280,12 @@ def terminal_summary(result, out_path) -> str:
                      f"{fmt(p['upper'])}  contraction {fmt_contraction(p['contraction'])}")
     d = s.get("drift_frequency")
     q = s["derived"].get("q_hat")
-    if d:
+    today = (s.get("history_comparison") or {}).get("frequency_today")
+    if today and result.study.model == "drift":  # the history's, not the balance's
+        lines.append(f"  {'q_today':<{width}} {fmt(today['median']):>10}  {pct} "
+                     f"{fmt(today['lower'])} – {fmt(today['upper'])}  (mean under the "
+                     "history)")
+    elif d:
         lines.append(f"  drift: mean frequency {fmt(d['mean'])}, {pct} {fmt(d['lower'])} – "
                      f"{fmt(d['upper'])}" + ("; most mass at 0" if d["mostly_at_zero"] else ""))
         for sample in d["samples"][:1]:

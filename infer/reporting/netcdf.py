@@ -53,6 +53,12 @@ PARAMETER_ATTRS = {
     "nu": ("back mutation rate a to A", RATE),
     "Ne": ("effective population size", "individuals"),
     "alpha": ("male-to-female ratio of mutation rates", "1"),
+    "penetrance": ("probability that a carrier of the affected genotype is affected", "1"),
+    "completeness": ("probability that an affected birth is registered", "1"),
+    "phenocopy": ("affected births per birth without a germ-line mutation", "1"),
+    "s_male": ("selection coefficient against aa in males", "1"),
+    "s_female": ("selection coefficient against aa in females", "1"),
+    "q_founder": ("allele frequency among the founders", "1"),
 }
 #: long name and units of each derived quantity (docs/reports.md, summary.json ``derived``)
 DERIVED_ATTRS = {
@@ -67,6 +73,7 @@ DERIVED_ATTRS = {
     "affected_male": ("affected fraction of newborn sons", "1"),
     "mu_female": ("mutation rate in the female germ line, 3 mu / (2 + alpha)", RATE),
     "mu_male": ("mutation rate in the male germ line, alpha mu_female", RATE),
+    "s_mean": ("selection averaged over the sexes, (s_male + s_female) / 2", "1"),
 }
 COORDINATE_ATTRS = {
     "chain": {"long_name": "independently started ensemble", "units": "1"},

@@ -116,3 +116,13 @@ def test_without_the_sex_pair_fertility_sex_reads_s():
 def test_fertility_sex_is_described(sex):
     study = parse_study(STUDY.replace('sex = "male"', f'sex = "{sex}"'))
     assert f"dominant, {sex}" in study.observations[1].describe()
+
+
+def test_reports_derive_the_mean_selection():
+    from infer.jobs.estimate.results import derived_quantities
+
+    study = parse_study(STUDY)
+    model = Model(study)
+    params = model.complete(_rows(), 2)
+    derived = derived_quantities(model, params, model.state(params))
+    np.testing.assert_allclose(derived["s_mean"], [0.4, 0.35])

@@ -300,6 +300,8 @@ def derived_quantities(model, params: dict, state, wright: bool = True
         out["load"] = np.asarray(state.balance.load, dtype=float)
         out["affected_dominant"] = affected_fraction("dominant", state.q, F, penetrance)
         out["affected_recessive"] = affected_fraction("recessive", state.q, F, penetrance)
+        if getattr(model, "sex_specific", False):  # selection by sex: their mean
+            out["s_mean"] = np.asarray(params["s"], dtype=float)
     if model.drift and wright:
         from infer.core.drift import stationary as drift
 

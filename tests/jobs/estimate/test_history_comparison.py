@@ -41,3 +41,25 @@ def test_the_founder_island_history_changes_the_answer():
     assert out["history"]["founder"] == {"founders": 80, "generations_ago": 16,
                                          "frequency": "q_founder"}
     assert any("Founder event 16 generations ago" in line for line in out["description"])
+
+
+def test_a_drift_history_is_headlined_with_its_frequency_today_not_the_balance():
+    """The terminal's frequency line under a drift history is the history's mean today
+    (frequency_today), never the deterministic balance (docs/reports.md)."""
+    from types import SimpleNamespace
+
+    from infer.reporting.markdown import terminal_summary
+
+    summary = {
+        "interval": 0.95,
+        "parameters": {"s": {"median": 0.2, "lower": 0.01, "upper": 0.7, "contraction": 0.3}},
+        "derived": {"q_hat": {"median": 1.6e-4, "lower": 4e-5, "upper": 3e-3}},
+        "history_comparison": {"frequency_today": {"median": 0.053, "lower": 0.0067,
+                                                   "upper": 0.098}},
+        "diagnostics": {"converged": True, "messages": []},
+    }
+    result = SimpleNamespace(summary=summary, free=["s"],
+                             study=SimpleNamespace(title="drift history", model="drift"))
+    text = terminal_summary(result, "out")
+    assert "q_today" in text and "0.053" in text and "0.00016" not in text
+    assert "1.60e-04" not in text
