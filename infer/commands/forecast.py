@@ -110,6 +110,10 @@ def run(args) -> int:
     )
 
     source = read_report(args.report)
+    if source.trusted is False:
+        print(f"qhat: warning: the estimate in {args.report} did not converge or disagrees "
+              "with its exact cross-check (its report.md says why); the forecast carries "
+              "its draws forward as they are", file=sys.stderr)
     with _as_options():   # what depends on the report, before the destination is taken
         check_changes(changes, source.inheritance)
         resolve_mode(source, args.mode)

@@ -198,3 +198,20 @@ def test_bad_input_is_one_line_exit_2_and_nothing_written(reports, tmp_path, cap
     assert err.startswith("qhat: error: ") and err.count("\n") == 1, repr(err)
     assert needle in err, f"{needle!r} not in {err!r}"
     assert stdout == "" and not out.exists()
+
+
+def test_a_report_not_converged_draws_a_warning(reports, tmp_path, capsys):
+    """A forecast of an estimate that did not converge says so on stderr (one
+    ``qhat: warning:`` line) and still runs: the draws are the report's."""
+    import shutil
+
+    copy = tmp_path / "copy"
+    shutil.copytree(reports["dominant"], copy)
+    summary = json.loads((copy / "summary.json").read_text(encoding="utf-8"))
+    summary["diagnostics"]["converged"] = False
+    (copy / "summary.json").write_text(json.dumps(summary), encoding="utf-8")
+    status, out, err = call_qhat(["forecast", copy, "--generations", "2", "--out",
+                                  tmp_path / "fc", "-q"], capsys)
+    assert status == 0, err
+    warnings = [line for line in err.splitlines() if line.startswith("qhat: warning:")]
+    assert len(warnings) == 1 and "did not converge" in warnings[0], err

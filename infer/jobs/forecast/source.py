@@ -48,6 +48,9 @@ class ForecastSource:
     mode : str or None
         The mode of the study's pooled counts (summary.json ``direct_indirect.mode``)
         when the report names one.
+    trusted : bool or None
+        The estimate converged and (where it had one) agreed with its exact cross-check
+        (summary.json ``diagnostics``); None when the report does not say.
     """
 
     folder: str
@@ -57,6 +60,7 @@ class ForecastSource:
     draws: dict
     fixed: frozenset
     mode: str | None = None
+    trusted: bool | None = None
 
     @property
     def size(self) -> int:
@@ -177,9 +181,13 @@ def read_report(folder) -> ForecastSource:
         draws["s"] = 0.5 * (draws["s_male"] + draws["s_female"])
         fixed_values.pop("s", None)
     mode = (summary.get("direct_indirect") or {}).get("mode")
+    diagnostics = summary.get("diagnostics") if isinstance(summary.get("diagnostics"),
+                                                           dict) else {}
+    converged, verified = diagnostics.get("converged"), diagnostics.get("verified")
+    trusted = None if converged is None else bool(converged) and verified is not False
     return ForecastSource(
         folder=str(folder), title=str(summary.get("title") or folder.name),
         inheritance=summary["inheritance"], model=str(summary["model"]),
         draws={name: draws[name] for name in LIFE_CYCLE},
         fixed=frozenset(name for name, value in fixed_values.items() if value == value),
-        mode=mode if isinstance(mode, str) else None)
+        mode=mode if isinstance(mode, str) else None, trusted=trusted)
