@@ -125,6 +125,8 @@ def balance_curve_figure(result):
     curves = _balance_curves(result, draws, against, x, targets)
     level = _level(result)
     drift = result.study.model == "drift"
+    # the curves are equilibria; a study with a [history] is fitted to the history instead
+    history = getattr(result.study, "history", None) is not None
     # a drift panel carries up to nine legend entries: they go below the axes, off the data
     figure, axes = _panel_figure(1, 1, 5.6, 3.6, right=0.3,
                                  bottom=0.6 + (1.3 if drift else 0.0))
@@ -142,6 +144,8 @@ def balance_curve_figure(result):
         name = _TARGET_LEGEND.get(target, target)
         if drift:
             name = f"deterministic {name} (no drift)"
+        if history:
+            name = f"equilibrium {name} (no history)"
         ax.fill_between(x, lower, upper, color=colour, alpha=0.2, lw=0,
                         label=f"{name}: {round(100 * level)} % band over posterior draws")
         ax.plot(x, median, color=colour, lw=1.8, label=f"{name}: posterior median")
@@ -149,8 +153,10 @@ def balance_curve_figure(result):
         derived = _finite(result.derived.get(target, []))
         if derived.size:
             at = np.median(draws[against]) if against in draws else fixed[against]
+            point = (f"{_TARGET_LEGEND.get(target, target)} today under the history: posterior "
+                     "median" if history and not drift else f"{name}: posterior median point")
             ax.plot([at], [np.median(derived)], marker="o", ms=7, color=colour,
-                    markeredgecolor="black", ls="none", label=f"{name}: posterior median point")
+                    markeredgecolor="black", ls="none", label=point)
     values = _finite(np.concatenate(values))
     values = values[values > 0]
     floor = float(values.min()) / 3 if values.size else 1e-12
@@ -192,6 +198,8 @@ def balance_curve_figure(result):
     heading = (f"Drift and balance: Wright's stationary distribution and the deterministic "
                f"{what} against {against}" if drift
                else f"Mutation-selection balance: exact {what} against {against}")
+    if history:
+        heading = f"Equilibrium {what} against {against}, for comparison with the [history]"
     _title(figure, heading, result)
     return figure
 
