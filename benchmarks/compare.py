@@ -15,26 +15,13 @@ from __future__ import annotations
 
 import argparse
 import statistics
-import subprocess
-import sys
-import tempfile
 import time
 from pathlib import Path
 
 import numpy as np
+from estimate import whole_process  # this script's folder is on sys.path
 
 ROOT = Path(__file__).resolve().parents[1]
-
-
-def whole_process(study: Path, repeats: int) -> float:
-    times = []
-    for _ in range(repeats):
-        with tempfile.TemporaryDirectory() as tmp:
-            t0 = time.perf_counter()
-            subprocess.run([sys.executable, "-m", "infer", "compare", str(study), "--out",
-                            str(Path(tmp) / "out"), "-q"], check=True, capture_output=True)
-            times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def agreement(study: Path) -> None:
@@ -84,7 +71,8 @@ def main() -> None:
     parser.add_argument("--repeats", type=int, default=3)
     args = parser.parse_args()
     for study in sorted((ROOT / "data_demo").glob("compare-*.toml")):
-        print(f"{study.name}: whole qhat compare {whole_process(study, args.repeats):.1f} s "
+        seconds = whole_process(study, args.repeats, "compare")
+        print(f"{study.name}: whole qhat compare {seconds:.1f} s "
               f"(median of {args.repeats})")
         agreement(study)
     print("autosomal balance, 0 <= h <= 1:")

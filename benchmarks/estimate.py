@@ -32,12 +32,13 @@ import numpy as np
 ROOT = Path(__file__).resolve().parents[1]
 
 
-def whole_process(study: Path, repeats: int) -> float:
+def whole_process(study: Path, repeats: int, command: str = "estimate") -> float:
+    """Median wall seconds of ``qhat COMMAND STUDY --out TMP --quiet``."""
     times = []
     for _ in range(repeats):
         with tempfile.TemporaryDirectory() as tmp:
             t0 = time.perf_counter()
-            subprocess.run([sys.executable, "-m", "infer", "estimate", str(study), "--out",
+            subprocess.run([sys.executable, "-m", "infer", command, str(study), "--out",
                             str(Path(tmp) / "r"), "--quiet"], check=True,
                            capture_output=True, cwd=ROOT)
             times.append(time.perf_counter() - t0)

@@ -34,6 +34,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from infer.core.balance import AutosomalBalance, autosomal_balance
+from infer.core.x_linked import daughter_genotype_frequencies
 
 __all__ = ["TwoSexBalance", "two_sex_balance", "two_sex_step", "two_sex_genotypes"]
 
@@ -61,29 +62,9 @@ class TwoSexBalance(AutosomalBalance):
     q_egg: np.ndarray = None
 
 
-def two_sex_genotypes(x, y, F=0.0):
-    """Zygote genotype frequencies (AA, Aa, aa) from sperm at x and eggs at y.
-
-    Parameters
-    ----------
-    x, y : array_like
-        Frequencies of the allele among the sperm and among the eggs.
-    F : array_like, optional
-        Inbreeding coefficient (an identical-by-descent pair carries the allele at
-        (x + y)/2).
-
-    Returns
-    -------
-    tuple of numpy.ndarray
-        At x = y = q these are Hardy–Weinberg with inbreeding,
-        (p²(1-F) + pF, 2pq(1-F), q²(1-F) + qF).
-    """
-    x, y, F = (np.asarray(v, dtype=float) for v in (x, y, F))
-    mean = 0.5 * (x + y)
-    one_f = 1.0 - F
-    het = one_f * (x * (1.0 - y) + y * (1.0 - x))
-    hom = one_f * x * y + F * mean
-    return one_f * (1.0 - x) * (1.0 - y) + F * (1.0 - mean), het, hom
+#: zygotes (AA, Aa, aa) from sperm at x and eggs at y, F around (x + y)/2: the same
+#: products as X-linked daughters' genotypes, whose eggs and sperm also differ
+two_sex_genotypes = daughter_genotype_frequencies
 
 
 def _gamete_change(x, y, s, h, F, mu, nu):

@@ -170,7 +170,7 @@ class Study:
     @property
     def named_completeness(self) -> list[str]:
         """Registries' own completeness parameters (``completeness_<tag>``), in file order."""
-        return [name for name in self.parameters if NAMED_COMPLETENESS.fullmatch(name)]
+        return _named(self.parameters)
 
     @property
     def reported_parameters(self) -> list[str]:
@@ -341,6 +341,9 @@ def _parse(document: Any, source: str, require_free: bool) -> Study:
 
     history, sampled = None, {}
     if "history" in document:
+        if "s_male" in parameters and not is_placeholder(parameters["s_male"]):
+            raise InputError("selection by sex (s_male, s_female) is not built into "
+                             "histories yet: a [history] carries one s", field="history")
         history, sampled = parse_history(
             document["history"], model=model, inheritance=inheritance, parameters=parameters,
             labels=[o.label for o in observations],

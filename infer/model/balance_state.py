@@ -15,9 +15,23 @@ import numpy as np
 from infer.core.choices import INHERITANCES
 from infer.core.supports import ASCERTAINMENT, BALANCE_PARAMETERS, SEX_SELECTION
 
-__all__ = ["BalanceState", "broadcast_params", "INHERITANCES"]
+__all__ = ["BalanceState", "broadcast_params", "with_sex_average", "INHERITANCES"]
 
 _NAMES = (*BALANCE_PARAMETERS, *ASCERTAINMENT, *SEX_SELECTION)
+
+
+def with_sex_average(params: dict) -> dict:
+    """``params`` with s = (s_male + s_female)/2 where s is NaN and the sexes' are given.
+
+    Selection by sex: the study gives no s of its own (infer.model.priors.parsing,
+    ``SexAverage``); every kind that reads s reads the sexes' mean.
+    """
+    s = np.asarray(params.get("s", np.nan), dtype=float)
+    male = np.asarray(params.get("s_male", np.nan), dtype=float)
+    if np.isnan(s).any() and np.isfinite(male).any():
+        mean = 0.5 * (male + np.asarray(params["s_female"], dtype=float))
+        params["s"] = np.where(np.isnan(s), mean, s)
+    return params
 
 
 def broadcast_params(params: dict) -> dict[str, np.ndarray]:
@@ -45,10 +59,7 @@ def broadcast_params(params: dict) -> dict[str, np.ndarray]:
     # parameters of one observation (a registry's own completeness) travel along
     arrays.update({name: np.asarray(value, dtype=float) for name, value in params.items()
                    if name not in arrays})
-    if np.isnan(arrays["s"]).any() and np.isfinite(arrays["s_male"]).any():
-        # selection by sex: s is the mean of the sexes' (the study gives no s of its own)
-        arrays["s"] = np.where(np.isnan(arrays["s"]),
-                               0.5 * (arrays["s_male"] + arrays["s_female"]), arrays["s"])
+    arrays = with_sex_average(arrays)
     shapes = {a.shape for a in arrays.values()}
     if len(shapes) == 1 and len(next(iter(shapes))) == 1:
         return arrays  # the common case: already (n,) arrays

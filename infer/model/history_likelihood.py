@@ -21,14 +21,21 @@ import numpy as np
 from infer.core.balance import load
 from infer.core.history.deterministic import history_frequencies
 from infer.core.history.distribution import history_distributions
+from infer.core.x_linked import daughter_genotype_frequencies
 from infer.model.balance_state import BalanceState, broadcast_params
 
-__all__ = ["history_states", "history_log_likelihoods", "sampling_times"]
+__all__ = ["history_states", "history_log_likelihoods", "sampling_times", "frequency_times"]
 
 
 def sampling_times(observations, sampled: dict) -> list[int]:
     """Generations ago each observation was sampled (0 unless ``sampled`` names it)."""
     return [int(sampled.get(obs.label, 0)) for obs in observations]
+
+
+def frequency_times(observations, times) -> list[int]:
+    """The distinct sampling times of the observations that read the frequency, sorted."""
+    return sorted({t for obs, t in zip(observations, times, strict=True)
+                   if obs.depends_on_frequency})
 
 
 def history_states(history, params: dict, inheritance: str, times=(0,)) -> dict:
@@ -41,12 +48,10 @@ def history_states(history, params: dict, inheritance: str, times=(0,)) -> dict:
     p = broadcast_params(params)
     states = {}
     for t, q in out.q.items():
-        exists = out.exists & np.isfinite(q)
+        exists = out.exists  # already false wherever a recorded frequency is not finite
         if inheritance == "x-linked":
             x = out.q_male[t]
-            y = 2.0 * out.q_female[t] - x
-            het = (1 - p["F"]) * (x * (1 - y) + y * (1 - x))
-            hom = (1 - p["F"]) * x * y + p["F"] * out.q_female[t]
+            _, het, hom = daughter_genotype_frequencies(x, 2.0 * out.q_female[t] - x, p["F"])
             balance = SimpleNamespace(load_male=p["s"] * x,
                                       load_female=p["s"] * (p["h"] * het + hom))
             states[t] = BalanceState(p, inheritance, q, out.q_male[t], out.q_female[t],
@@ -58,7 +63,7 @@ def history_states(history, params: dict, inheritance: str, times=(0,)) -> dict:
 
 
 def history_log_likelihoods(history, params: dict, observations, times, *, drift: bool,
-                            inheritance: str) -> np.ndarray:
+                            inheritance: str, needed, forms) -> np.ndarray:
     """Per-observation log-likelihoods under the history, shape (n, n_observations).
 
     Parameters
@@ -72,18 +77,21 @@ def history_log_likelihoods(history, params: dict, observations, times, *, drift
     drift : bool
         Integrate over the propagated distribution (the drift model).
     inheritance : str
+    needed : list of int
+        The sampling times of the frequency kinds (:func:`frequency_times`).
+    forms : list
+        Each observation's :meth:`~infer.model.observations.base.Observation.binomial_form`
+        under drift (None otherwise), formed once by the model.
     """
-    needed = sorted({t for obs, t in zip(observations, times, strict=True)
-                     if obs.depends_on_frequency})
     if drift:
         laws = history_distributions(history, params, times=needed) if needed else {}
     else:
         laws = history_states(history, params, inheritance, times=needed) if needed else {}
     plain = None
     columns = []
-    for obs, t in zip(observations, times, strict=True):
+    for obs, t, form in zip(observations, times, forms, strict=True):
         if obs.depends_on_frequency and drift:
-            law, form = laws[t], obs.binomial_form()
+            law = laws[t]
             if form is not None:  # binomial in x: averaged over each diffusion cell
                 k, size, constant = form
                 ll = constant + law.log_binomial(k, size)

@@ -20,8 +20,9 @@ import numpy as np
 
 from infer.core.drift import stationary as drift
 from infer.core.history.distribution import history_distributions
-from infer.model.balance_state import BalanceState
+from infer.model.balance_state import BalanceState, with_sex_average
 from infer.model.history_likelihood import (
+    frequency_times,
     history_log_likelihoods,
     history_states,
     sampling_times,
@@ -60,6 +61,8 @@ class Model:
         self.sampling_times = sampling_times(study.observations,
                                              getattr(study, "sampled", {}) or {})
         self.sex_specific = bool(getattr(study, "sex_specific", False))
+        #: the distinct sampling times of the frequency kinds under a history
+        self._history_times = frequency_times(self.observations, self.sampling_times)
         # (k, n, constant) of the drift model's binomial sample probabilities, formed once
         self._binomial_forms = [
             obs.binomial_form() if self.drift and obs.depends_on_frequency else None
@@ -102,10 +105,7 @@ class Model:
 
     def _with_sex_average(self, params: dict) -> dict:
         """Set s to (s_male + s_female)/2 when the study gives selection by sex."""
-        if self.sex_specific and "s_male" in params and "s_female" in params:
-            params["s"] = 0.5 * (np.asarray(params["s_male"], dtype=float)
-                                 + np.asarray(params["s_female"], dtype=float))
-        return params
+        return with_sex_average(params) if self.sex_specific else params
 
     # -- densities ---------------------------------------------------------------------
     def log_prior(self, params: Mapping[str, np.ndarray]) -> np.ndarray:
@@ -137,8 +137,7 @@ class Model:
         states = [None] * len(self.observations)
         if self.history is None:
             return states
-        needed = sorted({t for o, t in zip(self.observations, self.sampling_times, strict=True)
-                         if o.depends_on_frequency})
+        needed = self._history_times
         if self.drift:
             laws = history_distributions(self.history, dict(params), times=needed)
             at = {t: BalanceState.at_frequency(params, law.draw(rng)) for t, law in laws.items()}
@@ -158,7 +157,8 @@ class Model:
         if self.history is not None:
             return history_log_likelihoods(
                 self.history, dict(params), self.observations, self.sampling_times,
-                drift=self.drift, inheritance=self.inheritance)
+                drift=self.drift, inheritance=self.inheritance, needed=self._history_times,
+                forms=self._binomial_forms)
         state = None
         columns = []
         for observation, form in zip(self.observations, self._binomial_forms, strict=True):

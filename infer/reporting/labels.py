@@ -158,7 +158,7 @@ def parameter_meanings(inheritance: str, parameters: dict) -> dict[str, str]:
             s = "mean of s_male and s_female (the sexes' selection, averaged)"
     own = {name: f"probability that an affected birth is registered, in the observations "
                  f'that name "{name}"' for name in parameters
-           if name.startswith("completeness_")}
+           if name.startswith("completeness_")}  # names checked by the study parser
     return {"mu": mu, "s": s, **_UNITS, **own}
 
 

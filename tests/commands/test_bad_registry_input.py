@@ -152,3 +152,13 @@ upper = 1.0
     status, out, err = call_qhat(["estimate", path, "--out", tmp_path / "out"], capsys)
     assert status == 2 and "observations[3].upper" in err and "logit" in err, err
     assert not (tmp_path / "out").exists()
+
+
+def test_selection_by_sex_with_a_history_is_refused(tmp_path, capsys):
+    """A [history] carries one s: a study with s_male and s_female and a [history] is
+    refused in one line rather than read at the sexes' mean (docs/files.md)."""
+    path = tmp_path / "study.toml"
+    path.write_text(SEXES + "\n[history]\nepochs = [ { generations = 5 } ]\n", encoding="utf-8")
+    status, out, err = call_qhat(["estimate", path, "--out", tmp_path / "out"], capsys)
+    assert status == 2 and out == "" and not (tmp_path / "out").exists()
+    assert err.count("\n") == 1 and "study.toml: history: selection by sex" in err, err

@@ -34,7 +34,8 @@ def test_fitnesses_reproduce_fisher(capsys):
 
 def test_h_above_one_is_a_rare_allele(capsys):
     """h > 1, rare allele: q ≈ mu/(hs) (Haldane 1927, the rare-allele form; its error is
-    about |1-2h| mu/(h² s), infer/core/approximations.py)."""
+    about |1-2h| mu/(h² s), derived here: the quadratic's q² term (1-2h)s q² against the
+    linear hs q gives a relative correction |1-2h| q/h ≈ 6e-6 at these values)."""
     done = _json(capsys, "--mu", "1e-6", "--s", "0.1", "--h", "3")
     assert done["q_hat"] == pytest.approx(1e-6 / 0.3, rel=1e-4), (
         f"q_hat {done['q_hat']} vs mu/(hs) = {1e-6 / 0.3}")

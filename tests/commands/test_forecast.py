@@ -3,7 +3,8 @@
 References outside the command: with s = 0 the allele frequency gains mu(1 - q) per
 generation (Crow & Kimura 1970, An Introduction to Population Genetics Theory, ch. 6);
 a recessive's incidence penetrance x q² then rises by penetrance x (2 q mu (1 - q) +
-mu² (1 - q)²) in the first generation (derived in infer/jobs/forecast/project.py). The
+mu² (1 - q)²) in the first generation (derived here: q' - q = mu(1 - q) with s = 0, and
+(q + Δq)² - q² = 2qΔq + Δq²). The
 estimate report's draws are read here with xarray's own netCDF reader and the CSV with
 the standard library's csv module; the caution is the sentence docs/reports.md names.
 """

@@ -142,7 +142,9 @@ def test_a_study_with_one_free_rate_against_scipy_quad():
 
     def integrand(log_mu):   # mu = e^log_mu, log-uniform: density 1/width in log mu
         mu = math.exp(log_mu)
-        q = 2 * mu / (0.1 * (1 + mu) + math.sqrt((0.1 * (1 + mu)) ** 2))  # h = 1/2: linear
+        # the balance's quadratic (1-2h)s q² + hs(1+mu) q - mu = 0 (docs/model.md) is linear
+        # at h = 1/2: q = mu / (hs(1+mu)) (derived here), written in the root's form
+        q = 2 * mu / (0.1 * (1 + mu) + math.sqrt((0.1 * (1 + mu)) ** 2))
         return stats.binom.pmf(4, 2000, q) / math.log(1e-3 / 1e-7)
 
     reference, _ = integrate.quad(integrand, math.log(1e-7), math.log(1e-3), points=[

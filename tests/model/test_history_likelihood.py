@@ -121,5 +121,6 @@ def test_a_study_without_history_keeps_the_equilibrium_path():
     assert model.history is None
     s = np.array([0.1, 0.5])
     ll = model.log_likelihoods(model.complete({"s": s}, 2))[:, 0]
+    # h = 0, F = nu = 0: q = sqrt(mu/s) exactly (Haldane 1927; common practice)
     np.testing.assert_allclose(ll, stats.binom.logpmf(30, 1000, np.sqrt(1e-12 / s)),
                                rtol=1e-4)

@@ -14,9 +14,9 @@ different 2Ne share one padded count axis.
 from __future__ import annotations
 
 import numpy as np
-from scipy import special
 
 from infer.core.life_cycle import autosomal_step
+from infer.core.stats import log_choose
 
 __all__ = ["EXACT_GENES", "transition", "binomial_masses", "wright_fisher_generations"]
 
@@ -48,11 +48,9 @@ def transition(genes, probability):
     q = np.clip(np.asarray(probability, dtype=float), 0.0, 1.0)[:, :, None]
     with np.errstate(all="ignore"):
         # log C(g, k) per row and count, formed once; k log q + (g-k) log(1-q) as products
-        log_choose = (special.gammaln(g + 1) - special.gammaln(kk + 1)
-                      - special.gammaln(g - kk + 1))
         log_q, log_p = np.log(q), np.log1p(-q)
         rest = g - kk
-        log_pmf = (log_choose + np.where(kk > 0, kk * log_q, 0.0)
+        log_pmf = (log_choose(g, kk) + np.where(kk > 0, kk * log_q, 0.0)
                    + np.where(rest > 0, rest * log_p, 0.0))
         matrix = np.where(kk <= g, np.exp(log_pmf), 0.0)
     new_points = np.where(k[None, :] <= genes[:, None], k[None, :] / genes[:, None], 0.0)

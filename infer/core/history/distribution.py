@@ -28,6 +28,7 @@ from infer.core.history.diffusion import CELLS, SUBSTEPS, Grid, diffusion_genera
     stationary_masses
 from infer.core.history.discrete import EXACT_GENES, binomial_masses, wright_fisher_generations
 from infer.core.history.spec import History, resolve, row_value
+from infer.core.stats import log_choose
 
 __all__ = ["FrequencyDistribution", "history_distributions", "EXACT_GENES"]
 
@@ -56,8 +57,7 @@ class FrequencyDistribution:
         """
         x = np.clip(self.points, 0.0, 1.0)
         with np.errstate(divide="ignore", invalid="ignore"):
-            at_point = (special.gammaln(n + 1) - special.gammaln(k + 1)
-                        - special.gammaln(n - k + 1)
+            at_point = (log_choose(n, k)
                         + (k * np.log(x) if k else 0.0)
                         + ((n - k) * np.log1p(-x) if n - k else 0.0))
             if self.edges is None:

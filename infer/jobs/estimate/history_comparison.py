@@ -16,6 +16,7 @@ import dataclasses
 import numpy as np
 
 from infer.core.text import fmt
+from infer.files.history import HISTORY_PARAMETERS
 from infer.jobs.estimate.drift_comparison import (
     _and,
     _deterministic_quantiles,
@@ -29,9 +30,8 @@ __all__ = ["HISTORY_ONLY", "CHANGE", "equilibrium_twin", "describe_history",
 #: relative change of a median or interval end (log scale when positive) that counts
 CHANGE = 0.2
 #: parameters only a history reads
-HISTORY_ONLY = frozenset({"q_founder"})
+HISTORY_ONLY = frozenset(HISTORY_PARAMETERS)
 
-_NAMES = {"Ne": "Ne", "s": "s", "h": "h", "mu": "mu", "F": "F", "nu": "nu"}
 
 
 def equilibrium_twin(study):
@@ -41,7 +41,7 @@ def equilibrium_twin(study):
 
 
 def _values_text(values: dict) -> str:
-    return ", ".join(f"{_NAMES.get(k, k)} = {fmt(v) if not isinstance(v, str) else v}"
+    return ", ".join(f"{k} = {fmt(v) if not isinstance(v, str) else v}"
                      for k, v in values.items())
 
 

@@ -110,8 +110,8 @@ def _step(inheritance: str, state: tuple, v: dict, F) -> tuple:
     return (autosomal_step(state[0], v["mu"], v["s"], v["h"], F, v["nu"]),)
 
 
-def trajectories(inheritance: str, mode: str, before: dict, after: dict, generations: int
-                 ) -> Iterator[tuple[int, np.ndarray, np.ndarray]]:
+def trajectories(inheritance: str, mode: str, before: dict, after: dict, generations: int,
+                 state: tuple | None = None) -> Iterator[tuple[int, np.ndarray, np.ndarray]]:
     """Yield ``(t, q, incidence)`` for t = 0 ... generations, every row at once.
 
     Parameters
@@ -125,6 +125,9 @@ def trajectories(inheritance: str, mode: str, before: dict, after: dict, generat
         equilibrium and generation 0's inbreeding and penetrance.
     generations : int
         Generations projected.
+    state : tuple of numpy.ndarray, optional
+        The starting state of :func:`equilibrium_state` under ``before``, when the caller
+        has it already (it is solved here otherwise).
 
     Yields
     ------
@@ -132,7 +135,8 @@ def trajectories(inheritance: str, mode: str, before: dict, after: dict, generat
         ``(t, q, incidence)``, arrays of shape (n,); rows without an equilibrium under
         ``before`` are NaN throughout.
     """
-    state, _ = equilibrium_state(inheritance, before)
+    if state is None:
+        state, _ = equilibrium_state(inheritance, before)
     F, penetrance = before["F"], before["penetrance"]
     for t in range(int(generations) + 1):
         q, incidence = frequency_and_incidence(inheritance, mode, state, F, penetrance)

@@ -17,7 +17,11 @@ import numpy as np
 from infer.core.choices import AUTOSOMAL_MODES
 from infer.errors import InputError
 from infer.jobs.forecast.changes import check_changes
-from infer.jobs.forecast.project import equilibrium_state, trajectories
+from infer.jobs.forecast.project import (
+    equilibrium_state,
+    frequency_and_incidence,
+    trajectories,
+)
 from infer.jobs.forecast.source import LIFE_CYCLE, ForecastSource, read_report
 
 __all__ = ["ForecastResult", "forecast", "PROBABILITIES", "MAX_GENERATIONS", "resolve_mode"]
@@ -185,7 +189,7 @@ def forecast(report, generations: int, changes: dict | None = None, *,
     mode = resolve_mode(source, mode)
     probabilities = tuple(float(p) for p in probabilities)
 
-    _, exists = equilibrium_state(source.inheritance, source.draws)
+    start_state, exists = equilibrium_state(source.inheritance, source.draws)
     kept = int(np.count_nonzero(exists))
     if kept == 0:
         raise InputError("no posterior draw has a stable equilibrium to start from",
@@ -201,7 +205,9 @@ def forecast(report, generations: int, changes: dict | None = None, *,
     incidence_points = np.empty_like(q_points)
     first = {}
     start = None
-    for t, q, incidence in trajectories(source.inheritance, mode, before, after, generations):
+    start_state = tuple(np.asarray(x)[exists] for x in start_state)
+    for t, q, incidence in trajectories(source.inheritance, mode, before, after, generations,
+                                        state=start_state):
         q_points[t] = np.quantile(q, probabilities)
         incidence_points[t] = np.quantile(incidence, probabilities)
         if t == 0:
@@ -211,11 +217,8 @@ def forecast(report, generations: int, changes: dict | None = None, *,
                      "incidence": float(np.median(incidence - start[1]))}
 
     state_after, exists_after = equilibrium_state(source.inheritance, after)
-    if source.inheritance == "x-linked":
-        q_after = (2.0 * (0.5 * (state_after[0] + state_after[1])) + state_after[0]) / 3.0
-    else:
-        q_after = state_after[0] if len(state_after) == 1 else 0.5 * (state_after[0]
-                                                                       + state_after[1])
+    q_after, _ = frequency_and_incidence(source.inheritance, mode, state_after, after["F"],
+                                         after["penetrance"])
     equilibrium_after = {"share": float(np.mean(exists_after)),
                          "q": _interval(np.where(exists_after, q_after, np.nan),
                                         probabilities)}

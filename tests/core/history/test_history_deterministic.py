@@ -30,9 +30,10 @@ def _params(**given):
 def test_the_equilibrium_is_a_fixed_point_of_a_constant_history():
     params = _params()
     history = History(epochs=(Epoch(generations=40), Epoch(generations=25, ends=40)))
-    out = history_frequencies(history, params, times=(0, 30, 65))
+    # (65 generations ago is the start itself: only later times test the recursion)
+    out = history_frequencies(history, params, times=(0, 30))
     q_hat = autosomal_balance(params["mu"], params["s"], params["h"], params["F"]).q_hat
-    for t in (0, 30, 65):
+    for t in (0, 30):
         np.testing.assert_allclose(out.q[t], q_hat, rtol=1e-9)
 
 

@@ -59,6 +59,15 @@ def test_drift_demo_exact_check_is_not_a_false_alarm():
     _check_verified(result)
 
 
+def _edited(demo: str, replacements: dict) -> str:
+    """A demo study's text with lines replaced (each must be found once)."""
+    text = (DEMO / demo).read_text()
+    for old, new in replacements.items():
+        assert text.count(old) == 1, f"{demo}: the line {old!r} moved"
+        text = text.replace(old, new)
+    return text
+
+
 def _random_studies(text: str, count: int, seed: int):
     """Studies of one shape with data simulated at truths drawn from its own priors."""
     from infer.files.study import parse_study
@@ -76,6 +85,10 @@ def _random_studies(text: str, count: int, seed: int):
     # exact 97.5 % points agree (0.998 and 0.998) and once failed only because the
     # quadrature allowance stepped past the end of the range (NaN)
     "two-sources-penetrance-free",
+    # capabilities off their own demos: selection by sex with h free (s_male, s_female,
+    # h), one registry's own completeness beside a free s (mu, s, completeness_north),
+    # and a founder history with h free (s, h, q_founder)
+    "sexes-h-free", "own-completeness-s-free", "founder-h-free",
 ])
 def test_random_three_parameter_studies_are_verified(shape):
     # Studies not written for the sampler: parameters drawn from the documented prior
@@ -92,6 +105,17 @@ def test_random_three_parameter_studies_are_verified(shape):
         text = text.replace("penetrance = 0.9 ",
                             'penetrance = { prior = "uniform", low = 0.5, high = 1.0 } ', 1)
         assert "s  = 0.5" in text and 'penetrance = { prior' in text, "the demo's lines moved"
+    elif shape == "sexes-h-free":
+        text = _edited("orrinsay-sex-fertility.toml", {
+            'mu = { prior = "log-uniform", low = 1e-7, high = 1e-3 }': "mu = 3e-5",
+            "\nh = 1.0 ": '\nh = { prior = "uniform", low = 0.05, high = 1.0 } '})
+    elif shape == "own-completeness-s-free":
+        text = _edited("skellan-two-regions.toml", {
+            "s = 0.6 ": 's = { prior = "uniform", low = 0.05, high = 1.0 } ',
+            'completeness_south = { prior = "beta", a = 16, b = 4 }': "completeness_south = 0.8"})
+    elif shape == "founder-h-free":
+        text = _edited("skerra-founder-island.toml", {
+            "h  = 0.0": 'h  = { prior = "uniform", low = 0.0, high = 0.5 }'})
     else:
         text = (DEMO / "island-dominant.toml").read_text().replace(
             "h  = 1.0 ", 'h  = { prior = "uniform", low = 0.0, high = 1.0 } ', 1)

@@ -5,7 +5,8 @@ References outside the project:
 - Selection stopped (s = 0): q' = q(1 - nu) + (1 - q) mu, the change of q under
   mutation alone (Crow & Kimura 1970, An Introduction to Population Genetics Theory,
   ch. 6), so Δq ≈ mu per generation; a dominant's incidence 1 - p² then rises by about
-  2 mu and a recessive's q² by about 2 q mu (derived in infer/jobs/forecast/project.py).
+  2 mu and a recessive's q² by about 2 q mu (derived here: 1 - p² = 2q - q² changes by
+  2Δq(1 - q) - Δq², and q² by 2qΔq + Δq², with Δq ≈ mu).
 - The textbook autosomal recursion, written here independently of the library:
   selection on zygotes in Hardy-Weinberg proportions, q_sel = (pq(1 - hs) + q²(1 - s)) /
   (1 - 2pqhs - q²s), then mutation (Crow & Kimura 1970, ch. 5 and 6).
@@ -228,8 +229,9 @@ def test_every_life_cycle_value_is_reported_before_and_after():
 def test_selection_by_sex_stays_at_its_two_sex_balance_and_stopping_one_sex_raises_it():
     """With selection by sex (infer.core.two_sex) nothing set keeps the two-sex fixed
     point; ending selection in males only raises the newborns' frequency by about half
-    the loss it stops: Δq ≈ h·s_male·q/2 at first (each sex gives half the genes;
-    derivation in infer/core/two_sex.py), here with h = 1."""
+    the loss it stops: Δq ≈ h·s_male·q/2 at first (derived here: to first order the sperm
+    lose h·s_male·q of their copies to male selection, the eggs none to it, and the
+    newborns draw half their genes from each), here with h = 1."""
     from infer.core.two_sex import two_sex_balance
     from infer.jobs.forecast.project import trajectories
 
