@@ -145,6 +145,12 @@ def affected_fraction(mode, q, F=0.0, penetrance=1.0):
     return penetrance * homozygote
 
 
+def _selected_share(q, s, h, F):
+    """1 - w̄ = s q (2h(1-q)(1-F) + q(1-F) + F): fitness lost to selection, any h."""
+    one_f = 1.0 - F
+    return s * q * (2.0 * h * (1.0 - q) * one_f + q * one_f + F)
+
+
 def load(q, s, h, F=0.0):
     """Genetic load among zygotes, 1 - w̄/w_max, evaluated without cancellation.
 
@@ -162,8 +168,7 @@ def load(q, s, h, F=0.0):
     numpy.ndarray
     """
     q, s, h, F = (np.asarray(v, dtype=float) for v in (q, s, h, F))
-    one_f = 1.0 - F
-    value = s * q * (2.0 * h * (1.0 - q) * one_f + q * one_f + F)
+    value = _selected_share(q, s, h, F)
     if np.any(h < 0):
         value = np.where(h < 0, _overdominant_load(q, s, h * s, F), value)
     return value
@@ -393,7 +398,7 @@ def autosomal_balance(mu, s, h, F=0.0, nu=0.0, *, any_dominance=False) -> Autoso
                                         genetic_load)
             return AutosomalBalance(
                 q_hat=q, exists=exists,
-                mean_fitness=1.0 - s * q * (2.0 * h * (1.0 - q) * (1.0 - F) + q * (1.0 - F) + F),
+                mean_fitness=1.0 - _selected_share(q, s, h, F),
                 load=genetic_load)
         return AutosomalBalance(
             q_hat=q, exists=exists, mean_fitness=1.0 - genetic_load, load=genetic_load
@@ -417,9 +422,8 @@ def autosomal_balance(mu, s, h, F=0.0, nu=0.0, *, any_dominance=False) -> Autoso
     exists = exists & valid
     q = np.where(exists, root, np.nan)
     genetic_load = load(q, s, h, F)
-    one_f = 1.0 - F
     mean_fitness = (1.0 - genetic_load if not np.any(h < 0) else
-                    1.0 - s * q * (2.0 * h * (1.0 - q) * one_f + q * one_f + F))
+                    1.0 - _selected_share(q, s, h, F))
     return AutosomalBalance(
         q_hat=q, exists=exists, mean_fitness=mean_fitness, load=genetic_load
     )
