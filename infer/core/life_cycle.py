@@ -52,7 +52,10 @@ def autosomal_step(q, mu, s, h, F=0.0, nu=0.0) -> np.ndarray:
     selected_hom = hom * (1.0 - s)
     # w̄ = 1 - s(h Aa + aa), formed without subtracting terms of order one
     w_bar = 1.0 - s * (h * het + hom)
-    q_sel = (0.5 * selected_het + selected_hom) / w_bar
+    # w̄ = 0 only where every zygote is a lethal homozygote (q = 1, s = 1): the limit of
+    # q_sel there, from any s < 1, is q itself
+    q_sel = np.divide(0.5 * selected_het + selected_hom, w_bar,
+                      out=np.array(q * np.ones_like(w_bar), dtype=float), where=w_bar > 0)
     return q_sel * (1.0 - nu) + (1.0 - q_sel) * mu
 
 

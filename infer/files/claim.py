@@ -30,6 +30,10 @@ the paper states and of the formula it used, and the observations it reports::
     species = "human"                  # the built-in mutation-rate ranges are human ones
     tolerance = 0.2                    # rounding allowed in stated numbers (default 0.2)
 
+    [history]                          # optional, exactly as in a study file
+    epochs = [ { generations = 16 } ]  # (infer/files/history.py, docs/files.md 'History')
+    founder = { founders = 80, generations_ago = 16, frequency = 0.05 }
+
     [[observations]]                   # exactly as in a study file; none: arithmetic only
     kind = "affected"
     affected = 40
@@ -38,6 +42,11 @@ the paper states and of the formula it used, and the observations it reports::
 
     [sampler]
     seed = 1                           # seed of the draws from the claim's uncertainty
+
+A ``[history]`` is parsed by :func:`infer.files.history.parse_history` (through
+``parse_study``, so a claim's history is refused exactly as a study's); the check then
+reads the frequencies today and at each observation's sampling time from it. A claimed
+``q_founder`` (bare or with an interval) is a value the history reads.
 
 The authors' intervals (``lower``/``upper``) are read as central 95 % intervals. The
 observations are validated by :mod:`infer.model.observations.kinds` and the parameters
@@ -56,6 +65,7 @@ from typing import Any
 
 from infer.core.choices import AUTOSOMAL_MODES, X_LINKED_MODES
 from infer.errors import InputError
+from infer.files.history import HISTORY_PARAMETERS
 from infer.files.reading import invalid_toml, read_text
 from infer.files.study import Study, check_germ_line_rates, parse_study
 from infer.model.priors.parsing import (
@@ -189,6 +199,12 @@ class Claim:
         return {name: float(self.study.parameters[name].value) for name in PARAMETERS}
 
     @property
+    def history_values(self) -> dict[str, float]:
+        """The claimed values only a ``[history]`` reads (``q_founder``), if given."""
+        return {name: float(self.study.parameters[name].value)
+                for name in HISTORY_PARAMETERS if name in self.study.parameters}
+
+    @property
     def inheritance(self) -> str:
         """``"autosomal"`` or ``"x-linked"``."""
         return self.study.inheritance
@@ -240,10 +256,6 @@ def parse_claim(document: Any, *, source: str) -> Claim:
 def _parse(document: Any, source: str) -> Claim:
     if not isinstance(document, dict):
         raise InputError("a claim file must be a TOML document")
-    if "history" in document:
-        raise InputError("a claim is checked against the balance at equilibrium; a "
-                         "[history] is read by study files (qhat estimate, qhat compare), "
-                         "not yet by claims", field="history")
     reference = document.get("reference")
     if reference is not None and not isinstance(reference, str):
         raise InputError(f"{_fmt(reference)} is not a text", field="reference")

@@ -40,9 +40,15 @@ def check_document(result) -> dict:
     dict
         ``{schema_version, qhat_version, consistent, findings, implied}``; every finding
         with the computation behind it (schema ``check`` of :mod:`infer.reporting.schemas`).
+        A claim with a ``[history]`` adds ``history``: the table and the sentences
+        saying which history was assumed.
     """
-    return versioned({"consistent": result.consistent,
-                      "findings": [f.as_dict() for f in result.findings],
+    document = {"consistent": result.consistent}
+    record = result.implied.get("history")
+    if record is not None:
+        document["history"] = {"history": record["history"],
+                               "description": record["description"]}
+    return versioned({**document, "findings": [f.as_dict() for f in result.findings],
                       "implied": result.implied})
 
 
@@ -71,8 +77,25 @@ def _implied_lines(result) -> list[str]:
              if claim.inheritance == "x-linked" else
              ["q_hat", "carrier_frequency", "incidence_dominant", "incidence_recessive", "load"])
     names = [n for n in names if not n.startswith("incidence_") or n == f"incidence_{claim.mode}"]
+    if "history" in implied:  # the balance's new-mutation share has no value under a history
+        names = [n for n in names if n != "new_mutation_share"]
     band = implied.get("uncertainty", {})
     lines = []
+    history = implied.get("history")
+    propagated = implied.get("propagated")
+    if propagated is not None:  # drift under a [history]: its distribution today
+        compared = history["compared"]
+        lines.append(f"under drift through the stated history (Ne today = "
+                     f"{fmt(claim.values['Ne'])}) mean frequency today "
+                     f"{fmt_value(propagated['mean'])}, median {fmt_value(propagated['median'])}"
+                     f", {fmt_value(propagated['lower'])} to {fmt_value(propagated['upper'])}"
+                     f" [Wright's stationary mean {fmt(compared['q_hat']['equilibrium'])}]")
+        for name in ("carrier_frequency", f"incidence_{claim.mode}", "load"):
+            if name in propagated and name in names:
+                lines.append(f"{name} today = {fmt_value(propagated[name])} [equilibrium "
+                             f"{fmt(compared[name]['equilibrium'])}]")
+        lines.append(f"(deterministic q today = {fmt(implied.get('q_hat'))}, ignoring drift)")
+        return lines
     stationary = implied.get("stationary")
     if stationary is not None:
         lines.append(f"under Wright's stationary density (Ne = {fmt(claim.values['Ne'])}) "
@@ -85,9 +108,12 @@ def _implied_lines(result) -> list[str]:
         lines.append(f"(deterministic q_hat = {fmt(implied.get('q_hat'))}, ignoring drift)")
         return lines
     for name in names:
-        text = f"{name} = {fmt(implied.get(name))}"
+        shown_name = f"{name} today" if history is not None else name
+        text = f"{shown_name} = {fmt(implied.get(name))}"
         if name in band:
             text += f" ({fmt(band[name]['lower'])} to {fmt(band[name]['upper'])})"
+        if history is not None and name in history["compared"]:
+            text += f" [equilibrium {fmt(history['compared'][name]['equilibrium'])}]"
         lines.append(text)
     return lines
 
@@ -120,7 +146,10 @@ def text_report(result, out: Path | None = None) -> str:
         lines.append(f"  paper: {claim.reference}")
     lines.append(f"  {claim.inheritance}, {claim.study.model} model; claimed: "
                  + ", ".join(_claimed_lines(claim)))
-    lines.append("  implied by the claim: " + ", ".join(_implied_lines(result)))
+    if "history" in result.implied:
+        lines.append("  history: " + " ".join(result.implied["history"]["description"]))
+    lines.append(("  implied under the stated history: " if "history" in result.implied
+                  else "  implied by the claim: ") + ", ".join(_implied_lines(result)))
     lines.append("")
     for finding in result.findings:
         lines.append(f"{_LABELS[finding.severity]:<8} [{finding.code}] {finding.message}")
@@ -174,9 +203,12 @@ def check_markdown(result, plot: str | None) -> str:
             f"{s.name} = {fmt(s.value)}" for s in claim.statements.values()) + ".")
     if claim.approximation:
         lines.append(f"- Formula used by the authors: `{claim.approximation}`.")
+    if "history" in implied:
+        lines.append("- History assumed: " + " ".join(implied["history"]["description"]))
     lines += ["", "## What the claimed parameters imply ("
               + ("Wright's stationary distribution" if "stationary" in implied
-                 else "exact balance") + ")", ""]
+                 else "today, under the stated history; equilibrium values in brackets"
+                 if "history" in implied else "exact balance") + ")", ""]
     lines += [f"- {text}" for text in _implied_lines(result)]
     lines += ["", "## Observations against the claim", ""]
     if not implied["observations"]:
@@ -187,7 +219,9 @@ def check_markdown(result, plot: str | None) -> str:
         lines += ["| # | observation | observed | implied | observed/implied | p-value |",
                   "|---|---|---|---|---|---|"]
     for o in implied["observations"]:
-        lines.append(f"| {o['index']} | {o['label']} ({o['statistic']}) | "
+        when = (f", sampled {o['generations_ago']} generations ago"
+                if o.get("generations_ago") else "")
+        lines.append(f"| {o['index']} | {o['label']} ({o['statistic']}{when}) | "
                      f"{fmt_count(o['observed'])} | {fmt_value(o['implied'])} | "
                      f"{fmt_value(o['ratio'])} | {fmt_value(o['p_value'])} |")
     lines += ["", "Two-sided posterior predictive p-values of each observed statistic under "

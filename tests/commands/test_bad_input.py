@@ -161,10 +161,11 @@ CLAIM_CASES = [
     ("negative s", "s = 0.85", "s = -0.85", "parameters.s"),
     ("count above total in a claim", "affected = 22", "affected = 221500",
      "observations[1].affected"),
-    # read as an equilibrium it would be checked against the wrong balance: refused
-    ("history in a claim", "[sampler]\nseed = 7",
-     "[sampler]\nseed = 7\n\n[history]\nepochs = [ { generations = 12 } ]",
-     "history: a claim is checked"),
+    # a claim reads a [history] as a study does (infer/files/history.py): a bad one is
+    # refused with the study's message (tests/jobs/check/test_check_history.py has more)
+    ("bad history in a claim", "[sampler]\nseed = 7",
+     "[sampler]\nseed = 7\n\n[history]\nepochs = [ { generations = -12 } ]",
+     "history.epochs[1].generations: -12 is negative"),
 ]
 
 

@@ -4,7 +4,9 @@ With the other parameters held at their claimed values, :func:`claim_balance_cur
 evaluates the exact deterministic balance over a log grid of mu for the quantity the
 first frequency observation measures (an incidence, an allele frequency), and the exact
 binomial interval of that observation (Clopper & Pearson 1934, Biometrika 26:404). It
-is what the check's balance plot draws; nothing here draws or touches files.
+is what the check's balance plot draws; nothing here draws or touches files. Under a
+``[history]`` the curve is still the equilibrium's (labelled so, for comparison), and the
+quantity today under the history at the claimed values is given beside it.
 """
 
 from __future__ import annotations
@@ -69,6 +71,12 @@ class ClaimBalanceCurve:
         ``"locus"`` or ``"nucleotide"``.
     band : ObservedBand or None
         The observation compared, or None when no frequency observation exists.
+    title : str
+        What the curve is, for the plot's title.
+    today_value : float or None
+        Under a ``[history]``: the quantity today under it at the claimed values (times
+        the penetrance); the curve and ``claimed_value`` are then the equilibrium's, for
+        comparison. None without a history.
     """
 
     quantity: str
@@ -80,6 +88,8 @@ class ClaimBalanceCurve:
     measured_range: tuple[float, float]
     mu_scale: str
     band: ObservedBand | None
+    title: str = "balance under the claim (others held at claimed values)"
+    today_value: float | None = None
 
 
 def _plotted_quantity(claim):
@@ -118,7 +128,15 @@ def claim_balance_curve(claim: Claim, implied: dict) -> ClaimBalanceCurve:
         level = claim.study.interval
         band = ObservedBand(k, n, *clopper_pearson(k, n, level), level=level)
     measured = PER_NUCLEOTIDE_RANGE if claim.mu_scale == "nucleotide" else PER_LOCUS_RANGE
+    extra = {}
+    at_balance = implied
+    if "history" in implied:  # the curve is the equilibrium's; today's point beside it
+        at_balance = implied["equilibrium"]
+        label = f"{label} at equilibrium"
+        extra = {"title": "equilibrium, for comparison: the claim assumes a [history]",
+                 "today_value": penetrance * implied.get(key, np.nan)}
     return ClaimBalanceCurve(quantity=key, label=label, mu=mu, values=values,
                              claimed_mu=claim.values["mu"],
-                             claimed_value=penetrance * implied.get(key, np.nan),
-                             measured_range=measured, mu_scale=claim.mu_scale, band=band)
+                             claimed_value=penetrance * at_balance.get(key, np.nan),
+                             measured_range=measured, mu_scale=claim.mu_scale, band=band,
+                             **extra)

@@ -18,7 +18,7 @@ from infer.files.claim import Claim
 from infer.model.balance_state import BalanceState
 from infer.model.observations.base import x_linked_daughter_genotypes
 
-__all__ = ["implied_quantities", "drift_moments", "implied_values"]
+__all__ = ["implied_quantities", "drift_moments", "moment_averages", "implied_values"]
 
 
 def implied_quantities(claim: Claim, state: BalanceState) -> dict[str, np.ndarray]:
@@ -34,7 +34,10 @@ def implied_quantities(claim: Claim, state: BalanceState) -> dict[str, np.ndarra
         return {"q_hat": state.q, "q_male": state.q_male, "q_female": state.q_female,
                 "load": np.asarray(b.load_male), "load_male": np.asarray(b.load_male),
                 "load_female": np.asarray(b.load_female),
-                "new_mutation_share": np.asarray(b.new_mutation_share),
+                # the balance's share of affected sons with a new mutation; NaN under a
+                # [history], whose states carry no such share
+                "new_mutation_share": np.asarray(getattr(b, "new_mutation_share",
+                                                         np.full(state.n, np.nan))),
                 "carrier_frequency": carriers,
                 "incidence_x-linked-male": state.q_male}
     q = state.q
@@ -52,13 +55,21 @@ def drift_moments(claim: Claim) -> dict:
     v = claim.values
     summary = drift.stationary_summary(v["Ne"], v["mu"], v["s"], v["h"], v["nu"],
                                        claim.study.interval)
-    m = float(summary["mean"])
-    second = float(summary["sd"]) ** 2 + m * m  # E[x^2]
     out = {k: float(val) for k, val in summary.items()}
-    out.update({"carrier_frequency": 2 * (m - second),
-                "incidence_dominant": 2 * m - second, "incidence_recessive": second,
-                "load": v["s"] * (2 * v["h"] * (m - second) + second)})
+    out.update(moment_averages(out["mean"], out["sd"], v["s"], v["h"]))
     return out
+
+
+def moment_averages(mean: float, sd: float, s: float, h: float) -> dict:
+    """Carrier frequency, incidences and load averaged over a frequency distribution (F = 0).
+
+    Each is a polynomial of degree two in x under Hardy-Weinberg proportions (2x(1 - x),
+    2x - x², x², s(2h·x(1 - x) + x²)), so its mean needs only E[x] and E[x²] = sd² + mean².
+    """
+    second = sd * sd + mean * mean  # E[x^2]
+    return {"carrier_frequency": 2 * (mean - second),
+            "incidence_dominant": 2 * mean - second, "incidence_recessive": second,
+            "load": s * (2 * h * (mean - second) + second)}
 
 
 def implied_values(claim: Claim, state: BalanceState, sampled) -> dict:

@@ -4,7 +4,10 @@ Each parameter in turn -- mu, s and h; alpha at an X-linked locus; penetrance,
 completeness and phenocopy where the claim states them and an observation reads them --
 gets the exact posterior under a wide prior (``infer.files.claim.WIDE_PRIORS``) with the
 others held at their claimed values; the claimed value is judged by its evidence value
-(Pereira & Stern 1999) and the highest-density interval.
+(Pereira & Stern 1999) and the highest-density interval. Under a ``[history]`` the
+posterior is the claim's study's, which carries the history and each observation's
+sampling time (:class:`infer.model.posterior.Model` reads them), so the intervals are
+those the data imply under the stated history.
 """
 
 from __future__ import annotations
@@ -138,7 +141,9 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
             findings.append(Finding(
                 "error", "no-implied-value",
                 f"No value of {name} under {prior.describe()} makes the reported data "
-                f"possible with {others} held at their claimed values.", out[name]))
+                f"possible with {others} held at their claimed values"
+                + (" under the stated history." if study.history is not None else "."),
+                out[name]))
             continue
         evidence, (hpd_lower, hpd_upper) = _evidence(grid, name, claimed, level)
         q = grid.quantiles[name]
@@ -149,8 +154,12 @@ def implied_intervals(claim: Claim, threshold: float) -> tuple[dict, list[Findin
                   "level": level, "prior": prior.describe(),
                   "observations": [o.label for o in used], "held": others}
         out[name] = record
+        if study.history is not None:  # the Model reads the history and sampling times
+            record["under"] = "the stated history"
         pct = f"{100 * level:g} %"
-        text = (f"With {others} held at their claimed values, the reported data imply {name} "
+        under = " under the stated history" if study.history is not None else ""
+        text = (f"With {others} held at their claimed values{under}, the reported data imply "
+                f"{name} "
                 f"= {fmt(q['median'])} ({pct} highest-density interval {fmt(hpd_lower)} to "
                 f"{fmt(hpd_upper)}, prior {prior.describe()})")
         evidence_text = ("posterior mass no more probable than the claimed value "

@@ -55,7 +55,8 @@ def statement_findings(claim: Claim, implied: dict, threshold: float) -> list[Fi
     drift_model = claim.study.model == "drift"
     for name, statement in claim.statements.items():
         target = _statement_target(claim, name)
-        source = implied.get("stationary", {}) if drift_model else implied
+        source = (implied.get("propagated", implied.get("stationary", {})) if drift_model
+                  else implied)
         key = "mean" if drift_model and target == "q_hat" else target
         value = source.get(key, implied.get(target))
         band = implied.get("uncertainty", {}).get(target)
@@ -66,6 +67,16 @@ def statement_findings(claim: Claim, implied: dict, threshold: float) -> list[Fi
                    "under": "Wright's stationary mean" if drift_model else "exact balance"}
         text = (f"The paper states {name.replace('_', ' ')} {fmt(statement.value)}; the claimed "
                 f"parameters imply {fmt(value)} (ratio stated/implied {fmt(ratio)})")
+        if "history" in implied:  # today's value under the history, the balance beside
+            at_balance = implied["equilibrium"]
+            balance = (at_balance.get("stationary", {}).get(key, at_balance.get(target))
+                       if drift_model else at_balance.get(target))
+            details["under"] = "the stated history, today"
+            details["equilibrium"] = balance
+            text = (f"The paper states {name.replace('_', ' ')} {fmt(statement.value)}; under "
+                    f"the stated history the claimed parameters imply {fmt(value)} today "
+                    f"(ratio stated/implied {fmt(ratio)}; at equilibrium it would be "
+                    f"{fmt(balance)})")
         within = math.isfinite(ratio) and abs(math.log(ratio)) <= math.log1p(claim.tolerance)
         inside_band = band is not None and band["lower"] <= statement.value <= band["upper"]
         inside_stated = (statement.has_interval and value is not None
@@ -101,13 +112,15 @@ def _tails(observation, state, rng) -> tuple[float, float, str]:
     return p_value / 2, p_value / 2, "simulated"
 
 
-def _drift_tails(claim: Claim, observation) -> tuple[float, float, float]:
+def _drift_tails(claim: Claim, observation, law=None) -> tuple[float, float, float]:
     """Exact tails under Wright's density for a frequency count (point claim).
 
     P(T = k) = E_phi[Binomial(k; n, f(x))], f the kind's share of trials that count
     (:class:`~infer.model.observations.share.FrequencyStatistic`), summed over the
     shorter side of t (at most ``DRIFT_TAIL_TERMS`` terms). Returns (lower, upper,
-    expected); NaN for a kind that is not an observed share.
+    expected); NaN for a kind that is not an observed share. Given ``law`` (a
+    :class:`~infer.core.history.distribution.FrequencyDistribution` of one row: a
+    ``[history]``'s distribution at the sampling time), phi is that distribution.
     """
     from infer.core.drift import stationary as drift
 
@@ -116,17 +129,29 @@ def _drift_tails(claim: Claim, observation) -> tuple[float, float, float]:
     if statistic is None:
         return math.nan, math.nan, math.nan
     t, n = statistic.count, statistic.trials
-    moments = drift_moments(claim)
-    m, second = moments["mean"], moments["sd"] ** 2 + moments["mean"] ** 2
+    if law is not None and not np.all(np.isfinite(law.masses)):
+        return math.nan, math.nan, math.nan  # the carried distribution is not defined
+    if law is None:
+        moments = drift_moments(claim)
+        m, second = moments["mean"], moments["sd"] ** 2 + moments["mean"] ** 2
+    else:
+        m = float(law.mean[0])
+        second = float(law.expectation(law.points * law.points)[0])
     expected = statistic.expected_count(m, second)
     below = t <= n - t
     k = np.arange(0, t + 1) if below else np.arange(t, n + 1)
     if k.size > DRIFT_TAIL_TERMS:
         return math.nan, math.nan, expected
     rows = k.size
-    log_p = drift.log_expectation(
-        lambda x: log_binomial(k[:, None], n, np.clip(statistic.share(x), 0.0, 1.0)),
-        np.full(rows, v["Ne"]), v["mu"], v["s"], v["h"], v["nu"])
+
+    def log_sample(x):
+        return log_binomial(k[:, None], n, np.clip(statistic.share(x), 0.0, 1.0))
+
+    if law is None:
+        log_p = drift.log_expectation(log_sample, np.full(rows, v["Ne"]), v["mu"], v["s"],
+                                      v["h"], v["nu"])
+    else:  # one row's masses broadcast over the counts k
+        log_p = law.log_expectation(log_sample(law.points))
     pmf = np.exp(log_p)
     side = float(min(1.0, pmf.sum()))
     other = float(min(1.0, max(0.0, 1.0 - side + pmf[-1 if below else 0])))
@@ -134,7 +159,7 @@ def _drift_tails(claim: Claim, observation) -> tuple[float, float, float]:
 
 
 def observation_finding(claim, index, observation, rows_state, uncertain, rng, threshold,
-                        implied):
+                        implied, generations_ago=None, drift_law=None):
     """Judge one reported observation by its two-sided predictive p-value under the claim.
 
     Parameters
@@ -152,6 +177,12 @@ def observation_finding(claim, index, observation, rows_state, uncertain, rng, t
         p-values below it are errors, below 5 x threshold warnings.
     implied : dict
         Gains the comparison record under ``implied["observations"]``.
+    generations_ago : int, optional
+        Under a ``[history]``: when the observation was sampled; ``rows_state`` is then
+        the history's state at that time (recorded and named in the message).
+    drift_law : FrequencyDistribution, optional
+        Under a ``[history]`` and ``model = "drift"``: the point claim's distribution at
+        that time, which a frequency count's tails are integrated over.
 
     Returns
     -------
@@ -161,8 +192,10 @@ def observation_finding(claim, index, observation, rows_state, uncertain, rng, t
     t = observation.statistic()
     drift_count = claim.study.model == "drift" and observation.depends_on_frequency
     if drift_count:
-        lower, upper, expected = _drift_tails(claim, observation)
-        method, rows = "Wright's stationary density", "point claim"
+        lower, upper, expected = _drift_tails(claim, observation, drift_law)
+        method = ("Wright's stationary density" if drift_law is None else
+                  "the distribution carried through the stated history")
+        rows = "point claim"
     else:
         lower, upper, method = _tails(observation, rows_state, rng)
         values = np.asarray(observation.expected(rows_state), dtype=float)
@@ -175,8 +208,17 @@ def observation_finding(claim, index, observation, rows_state, uncertain, rng, t
               "statistic": observation.statistic_name, "observed": t, "implied": expected,
               "ratio": ratio, "p_value": p_value, "lower_tail": lower, "upper_tail": upper,
               "method": method, "claim_uncertainty": rows}
+    when = ""
+    if generations_ago is not None:
+        record["generations_ago"] = generations_ago
+        at = float(np.median(np.asarray(rows_state.q, dtype=float)) if drift_law is None
+                   else drift_law.mean[0])
+        record["q_then"] = at
+        when = (f" under the stated history today (q {fmt(at)})" if generations_ago == 0
+                else f" under the stated history at its sampling time, {generations_ago} "
+                     f"generations ago (q then {fmt(at)})")
     implied["observations"].append(record)
-    text = (f"{where}: observed {fmt(t)}, the claim implies {fmt(expected)} "
+    text = (f"{where}: observed {fmt(t)}, the claim implies {fmt(expected)}{when} "
             f"({observation.statistic_name}; ratio observed/implied {fmt(ratio)}); the "
             f"two-sided predictive p-value under the claim is {fmt(p_value)}")
     if not math.isfinite(p_value):

@@ -9,6 +9,11 @@ Nothing here prints or touches files.
 Findings (``code``: what raises it):
 
 * ``no-equilibrium``: the claimed parameters have no stable interior balance.
+* ``history-assumed``: under a ``[history]``, which history was assumed and the
+  frequency and incidence today beside their equilibrium values
+  (:mod:`infer.jobs.check.under_history`); the observations are then judged at their
+  sampling times, the statements against today's values, and the approximation and
+  drift findings say they concern the equilibrium.
 * ``observation-mismatch`` / ``observation-agrees``: each reported observation against
   the value the claim implies, with the two-sided posterior predictive p-value of the
   observed statistic under the claim (its stated uncertainty included): error below
@@ -57,6 +62,16 @@ from infer.jobs.check.findings import SEVERITIES, Finding, claimed_text
 from infer.jobs.check.implied import implied_values
 from infer.jobs.check.intervals import implied_intervals
 from infer.jobs.check.predictive import observation_finding, statement_findings
+from infer.jobs.check.under_history import (
+    claim_states,
+    drift_laws,
+    history_finding,
+    history_record,
+    law_summary,
+    mark_equilibrium_findings,
+    observation_times,
+    point_rows,
+)
 from infer.jobs.check.trade import (
     alternative_explanations,
     approximation_findings,
@@ -88,7 +103,9 @@ class CheckResult:
     implied : dict
         Quantities the claim implies (``q_hat``, ``load``, incidences, ...), their
         intervals under the claim's uncertainty, each observation's comparison and the
-        parameter intervals implied by the data (``from_data``).
+        parameter intervals implied by the data (``from_data``). Under a ``[history]``
+        the quantities are today's under it, with ``equilibrium`` (the same at the exact
+        balance) and ``history`` (:func:`infer.jobs.check.under_history.history_record`).
     threshold : float
         The p-value below which a finding is an error.
     balance_curve : infer.jobs.check.balance_curve.ClaimBalanceCurve
@@ -127,29 +144,57 @@ def check_claim(claim: Claim, *, threshold: float = 0.01, draws: int = CLAIM_DRA
     if not 0.0 < threshold < 1.0:
         raise ValueError("threshold must be in (0, 1)")
     rng = np.random.default_rng(claim.seed)
-    point = {k: np.array([v]) for k, v in claim.values.items()}
+    point = point_rows(claim)
     sampled = _claim_draws(claim, rng, draws) if claim.intervals else None
     findings: list[Finding] = []
+    history = claim.study.history
+    laws = {}
     with np.errstate(all="ignore"):
         state = BalanceState.deterministic(point, claim.inheritance)
         rows = state if sampled is None else BalanceState.deterministic(sampled, claim.inheritance)
-        implied = implied_values(claim, state, rows if sampled is not None else None)
-        if not bool(state.exists[0]):
+        equilibrium = implied_values(claim, state, rows if sampled is not None else None)
+        if history is None:
+            implied, point_at, rows_at = equilibrium, {0: state}, {0: rows}
+        else:
+            # today's values under the history; the equilibrium kept beside for comparison
+            point_at = claim_states(claim, point)
+            rows_at = point_at if sampled is None else claim_states(claim, sampled)
+            implied = implied_values(claim, point_at[0],
+                                     rows_at[0] if sampled is not None else None)
+            if claim.study.model == "drift":  # the distribution carried through the history
+                laws = drift_laws(claim)
+                del implied["stationary"]
+                implied["propagated"] = law_summary(laws[0], claim.study.interval,
+                                                    claim.values["s"], claim.values["h"])
+            implied["equilibrium"] = equilibrium
+            implied["history"] = history_record(claim, point_at, implied, equilibrium)
+            findings.append(history_finding(claim, implied))
+        if not bool(point_at[0].exists[0]):
             findings.append(Finding(
                 "error", "no-equilibrium",
                 f"The claimed parameters ({claimed_text(claim, ('mu', 's', 'h'))}) have no "
-                "stable mutation-selection balance: mutation overwhelms selection.",
+                "stable mutation-selection balance: mutation overwhelms selection"
+                + (" (before the stated history's oldest epoch)." if history is not None
+                   else "."),
                 {"parameters": claim.values}))
         implied["observations"] = []
+        times = observation_times(claim)
         for index, observation in enumerate(claim.study.observations, start=1):
-            findings.append(observation_finding(claim, index, observation, rows,
-                                                sampled is not None, rng, threshold, implied))
+            # a frequency kind is judged at its sampling time, the others today
+            reads = observation.depends_on_frequency
+            t = times[index - 1] if reads else 0
+            findings.append(observation_finding(
+                claim, index, observation, rows_at[t], sampled is not None, rng, threshold,
+                implied, generations_ago=t if history is not None and reads else None,
+                drift_law=laws.get(t) if reads else None))
         findings += statement_findings(claim, implied, threshold)
         from_data, data_findings = implied_intervals(claim, threshold)
         implied["from_data"] = from_data
         findings += data_findings
-        findings += approximation_findings(claim, state, implied)
-        findings += drift_findings(claim, state, implied)
+        # the authors' formula and drift against the balance: judged at equilibrium
+        judged = (approximation_findings(claim, state, equilibrium)
+                  + drift_findings(claim, state, equilibrium))
+        findings += mark_equilibrium_findings(judged) if history is not None else judged
         findings += trade_findings(claim, from_data)
         findings += alternative_explanations(findings, implied, claim)
     order = {s: i for i, s in enumerate(SEVERITIES)}
@@ -165,9 +210,10 @@ def _claim_draws(claim: Claim, rng, n: int) -> dict[str, np.ndarray]:
     The authors' (lower, upper) is read as a central 95 % interval around the claimed
     value: sigma = (g(upper) - g(lower)) / (2 x 1.96) with g = log or identity.
     """
-    out = {k: np.full(n, v) for k, v in claim.values.items()}
+    values = {**claim.values, **claim.history_values}
+    out = {k: np.full(n, v) for k, v in values.items()}
     for name, (lower, upper) in claim.intervals.items():
-        value = claim.values[name]
+        value = values[name]
         low, high = SUPPORT[name]
         if name in ("mu", "Ne", "alpha"):
             sigma = float(sigma_of_log(lower, upper))

@@ -43,6 +43,9 @@ def claim_balance_figure(result):
             label=f"exact balance, {', '.join(f'{p} = {claim.values[p]:g}' for p in ('s', 'h'))}")
     ax.plot([curve.claimed_mu], [curve.claimed_value], "o", color="tab:red", ms=7, mec="black",
             label=f"claimed mu = {curve.claimed_mu:.3g}")
+    if curve.today_value is not None:  # under a [history]: the curve is the equilibrium
+        ax.plot([curve.claimed_mu], [curve.today_value], "D", color="tab:purple", ms=6,
+                mec="black", label="today under the stated history")
     band = curve.band
     low_y, high_y = _y_range(curve)
     if band is not None:
@@ -61,8 +64,7 @@ def claim_balance_figure(result):
     ax.set_ylabel(curve.label, fontsize=9)
     ax.legend(fontsize=7, loc="upper left", framealpha=0.85)
     ax.tick_params(labelsize=8)
-    figure.suptitle(f"{shown(claim.title)}\nbalance under the claim "
-                    "(others held at claimed values)", fontsize=9)
+    figure.suptitle(f"{shown(claim.title)}\n{curve.title}", fontsize=9)
     _fit_left_margin(figure, ax)
     return figure
 
@@ -78,6 +80,8 @@ def _y_range(curve) -> tuple[float, float]:
     band = curve.band
     if band is not None:
         values = np.concatenate([values, [band.lower, band.upper]])
+    if curve.today_value is not None:
+        values = np.concatenate([values, [curve.today_value]])
     values = values[np.isfinite(values) & (values > 0)]
     if not values.size:
         return 1e-12, 1.0

@@ -147,3 +147,29 @@ def test_cell_averaged_sample_probabilities_sum_to_one_and_match_wright():
     np.testing.assert_allclose(probs.sum(), 1.0, rtol=1e-9)
     exact = np.exp(log_binomial_probability(np.arange(n + 1), n, Ne, mu, s, h, nu))
     np.testing.assert_allclose(probs, exact, atol=2e-3 * exact.max())
+
+
+def test_a_recessive_lethal_at_small_ne_matches_a_binomial_chain_built_with_scipy():
+    """At Ne = 30 the lattice reaches x = 1, where every zygote is a lethal homozygote
+    (w-bar = 0). The exact chain is rebuilt here with scipy.stats.binom over the same
+    life cycle (selection, mutation, then 2Ne genes drawn: Wright 1931; Crow & Kimura
+    1970 for the selection step) and the masses must be finite and agree."""
+    from scipy import stats
+
+    Ne, mu, generations = 30.0, 1e-4, 8
+    genes = int(2 * Ne)
+    params = _rows(1, Ne=Ne, mu=mu, s=1.0, h=0.0)
+    out = history_distributions(_from_half(generations), params, times=(0,))[0]
+    assert np.all(np.isfinite(out.masses[0]))
+    x = np.arange(genes + 1) / genes
+    # after selection q_sel = pq / (1 - q^2) = q / (1 + q); at q = 1 its limit is 1
+    selected = x / (1 + x)
+    selected[-1] = 1.0
+    gametes = selected * (1 - 1e-12) + (1 - selected) * mu
+    transition = stats.binom.pmf(np.arange(genes + 1)[None, :], genes, gametes[:, None])
+    masses = np.zeros(genes + 1)
+    masses[genes // 2] = 1.0
+    for _ in range(generations):
+        masses = masses @ transition
+    mean = float(masses @ x)
+    np.testing.assert_allclose(out.mean[0], mean, rtol=1e-9)
