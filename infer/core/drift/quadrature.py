@@ -15,6 +15,7 @@ _GL_T, _GL_W = np.polynomial.legendre.leggauss(10)
 _PEAK_TEMPLATE = np.array([-10, -6, -3, -1.5, 0, 1.5, 3, 6, 10.0])
 _MAX_PEAK_SCALE = 0.5
 _NEGLIGIBLE = 40.0
+_NEGLIGIBLE_END = 50.0  # end pieces this far (in log) below the interior are left out
 _CHUNK_NODES = 1 << 16
 _COARSE_WIDTH = 2.0
 _END_EPS = 0.1
@@ -75,34 +76,36 @@ def _coefficients(A, B, c, h):
     return A, -B, A + B, 1 - 2 * h, 2 * h, c
 
 
-def _log_f(y, A, B, c, h):
-    """L(y) = log of the integrand in y = logit x (dx = x(1-x) dy)."""
-    return _log_f_rows(y, _coefficients(A, B, c, h))
-
-
 def _log_f_rows(y, coefficients):
-    """L(y) from the constants of :func:`_coefficients` (broadcast against y).
+    """L(y) = log of the integrand in y = logit x (dx = x(1-x) dy), broadcast against y.
+
+    ``coefficients``: those of :func:`_coefficients` or of :func:`_value_coefficients`.
 
     With t = log(1 + e^(-|y|)): log x = min(y, 0) - t, log(1-x) = min(-y, 0) - t, and
-    min(-y, 0) = min(y, 0) - y exactly, so no large term is ever cancelled.
+    min(-y, 0) = min(y, 0) - y exactly, so no large term is ever cancelled; x itself is
+    exp(log x) (one exp in place of a logistic function, the dearest step).
     """
     A, minus_B, A_plus_B, k1, h2, c = coefficients
     t = np.abs(y)
     np.negative(t, out=t)
     np.exp(t, out=t)
     np.log1p(t, out=t)
-    t *= A_plus_B
-    x = special.expit(y)
     low = np.minimum(y, 0.0)
+    x = np.subtract(low, t)
+    np.exp(x, out=x)
     out = A * low
     low -= y
     low *= minus_B
     out -= low
+    t *= A_plus_B
     out -= t
-    s = k1 * x
-    s += h2
-    s *= x
-    s *= c
+    if k1 is not None:
+        s = k1 * x
+        s += h2
+        s *= x
+        s *= c
+    else:  # h = 1/2 on every row: c·S(x) = (c·2h)·x, h2 holding c·2h
+        s = np.multiply(h2, x, out=x)
     out -= s
     return out
 
@@ -137,18 +140,21 @@ def _peak(y_lo, y_hi, coefficients):
     The range [t_lo, t_hi] is bounded by the outermost probes within _NEGLIGIBLE of the
     maximum (plus one probe spacing); outside it the integrand is below e^-40 of its peak.
     Call with division warnings silenced (Newton steps where L'' = 0 are discarded).
+    Also returns the largest L seen (at the probes and the peak), the row's scale.
     """
     rows = y_lo.size
     probes = np.multiply.outer(_PROBE_T, y_hi - y_lo)  # (probes, rows)
     probes += y_lo
     chunk = max(1, _CHUNK_NODES // _PROBES)
+    values_of = _value_coefficients(coefficients)
     if rows <= chunk:
-        values = _log_f_rows(probes, coefficients)
+        values = _log_f_rows(probes, values_of)
     else:  # in row chunks that stay in cache
         values = np.empty_like(probes)
         for start in range(0, rows, chunk):
             r = slice(start, start + chunk)
-            values[:, r] = _log_f_rows(probes[:, r], [v[r] for v in coefficients])
+            values[:, r] = _log_f_rows(probes[:, r],
+                                       [v[r] if np.ndim(v) else v for v in values_of])
     flat, base = probes.ravel(), np.arange(rows)
     best = values.argmax(axis=0)
     at = best * rows + base
@@ -183,13 +189,13 @@ def _peak(y_lo, y_hi, coefficients):
     y[index], lo[index], hi[index] = ya, loa, hia
     d1, d2 = slopes(y)
     scale = 1 / np.sqrt(np.maximum(-d2, 0) + d1**2 + 1e-300)
-    top = np.maximum(_log_f_rows(y, coefficients), np.maximum.reduce(values, axis=0))
+    top = np.maximum(_log_f_rows(y, values_of), np.maximum.reduce(values, axis=0))
     keep = values >= top - _NEGLIGIBLE
     first = keep.argmax(axis=0)
     last = _PROBES - 1 - keep[::-1].argmax(axis=0)
     t_lo = np.minimum(flat[(first - (first > 0)) * rows + base], lo)
     t_hi = np.maximum(flat[(last + (last < _PROBES - 1)) * rows + base], hi)
-    return y, np.minimum(scale, _MAX_PEAK_SCALE), t_lo, t_hi
+    return y, np.minimum(scale, _MAX_PEAK_SCALE), t_lo, t_hi, top
 
 
 _UNIT_STEPS = {}
@@ -254,84 +260,169 @@ def _log_sum(log_values, weights):
         return top + np.log(np.sum(weights * np.exp(log_values - top[:, None]), axis=1))
 
 
-def _integrate(panels, coefficients):
-    """Log ∫ exp(L(y)) dy over the panels (left, right), in row chunks that stay in cache.
+def _log_f_one_side(y, slope, left_side, coefficients):
+    """:func:`_log_f_rows` of panels that each lie on one side of y = 0 (the same numbers).
+
+    There min(y, 0) is y or 0, so A·min(y, 0) + B·min(-y, 0) = slope·y with slope = A
+    (``left_side``) or -B, and log x = y - t or -t.
+    """
+    A, minus_B, A_plus_B, k1, h2, c = coefficients
+    t = np.abs(y)
+    np.negative(t, out=t)
+    np.exp(t, out=t)
+    np.log1p(t, out=t)
+    x = np.multiply(y, left_side)
+    x -= t
+    np.exp(x, out=x)
+    out = slope * y
+    t *= A_plus_B
+    out -= t
+    if k1 is not None:
+        s = k1 * x
+        s += h2
+        s *= x
+        s *= c
+    else:
+        s = np.multiply(h2, x, out=x)
+    out -= s
+    return out
+
+
+def _value_coefficients(coefficients):
+    """The constants of :func:`_log_f_rows` (k1 = None and h2 = c·2h when every h is 1/2)."""
+    A, minus_B, A_plus_B, k1, h2, c = coefficients
+    if np.ndim(k1) and not np.any(k1):
+        return A, minus_B, A_plus_B, None, h2 * c, None
+    return coefficients
+
+
+def _integrate(panels, coefficients, tops=None):
+    """Log ∫ exp(L(y)) dy over the panels (left, right), in chunks that stay in cache.
 
     Only panels of nonzero width are integrated (rows differ in their panel counts, and
-    a CDF's clipped panels are mostly empty): their nodes are laid out (n, panels), node
-    i of every panel in one contiguous row, so each operation runs over all the panels
-    of a chunk with per-panel coefficients; the weights half-width × w_i are applied as
-    one matrix-vector product and never stored. A row without a wide panel gives -inf.
+    a CDF's clipped panels are mostly empty): they are gathered once, each row's panels
+    consecutive, with their per-panel coefficients, and cut into chunks of whole rows.
+    Their nodes are laid out (n, panels), node i of every panel in one contiguous row,
+    so each operation runs over all the panels of a chunk; the weights half-width × w_i
+    are applied as one matrix-vector product and never stored. ``tops``, when given, is
+    a per-row bound near the maximum of L over the panels (the peak search's), taken as
+    the row's scale instead of the maximum over the nodes. A row without a wide panel
+    gives -inf.
     """
     lo, hi = panels
-    rows, count = lo.shape
-    out, tops = np.zeros(rows), np.zeros(rows)
-    chunk = max(1, _CHUNK_NODES // (count * _GL_T.size))
-    for start in range(0, rows, chunk):
-        r = slice(start, start + chunk)
-        left, right = lo[r], hi[r]
-        wide = right > left
-        counts = np.add.reduce(wide, axis=1)
-        left, right = left[wide], right[wide]
-        if not left.size:
-            continue
+    rows = lo.shape[0]
+    wide = hi > lo
+    counts = np.add.reduce(wide, axis=1)
+    left, right = lo[wide], hi[wide]
+    out = np.zeros(rows)
+    shift = np.zeros(rows) if tops is None else np.where(np.isfinite(tops), tops, 0.0)
+    if left.size:
         mid, half = 0.5 * (right + left), 0.5 * (right - left)
-        nodes = np.multiply.outer(_GL_T, half)
-        nodes += mid
-        values = _log_f_rows(nodes, [v[r].repeat(counts) for v in coefficients])
-        # each row's panels are consecutive: reduce over them from the first one's index
-        some = counts > 0
-        starts = (np.cumsum(counts) - counts)[some]
-        top = np.maximum.reduceat(np.maximum.reduce(values, axis=0), starts)
-        top[~np.isfinite(top)] = 0.0
-        values -= top.repeat(counts[some])
-        np.exp(values, out=values)
-        sums = _GL_W @ values
-        sums *= half
-        where = np.flatnonzero(some) + start
-        tops[where] = top
-        out[where] = np.add.reduceat(sums, starts)
+        per_panel = [v.repeat(counts) if np.ndim(v) else v
+                     for v in _value_coefficients(coefficients)]
+        # one side of y = 0: L = slope·y - (A+B)·t - c·S(x), slope A (y <= 0) or -B (y >= 0)
+        left_side = right <= 0.0
+        one_side = left_side | (left >= 0.0)
+        slope = np.where(left_side, per_panel[0], per_panel[1])
+        ends = np.cumsum(counts)
+        firsts = ends - counts
+        # chunk j takes the rows whose first panel lies in [j·size, (j+1)·size)
+        size = max(1, _CHUNK_NODES // _GL_T.size)
+        cuts = np.flatnonzero(np.diff(firsts // size)) + 1
+        for r0, r1 in zip(np.r_[0, cuts], np.r_[cuts, rows], strict=True):
+            p0, p1 = firsts[r0], ends[r1 - 1]
+            if p1 == p0:
+                continue
+            some = counts[r0:r1] > 0
+            starts = firsts[r0:r1][some] - p0
+            part = slice(p0, p1)
+            nodes = np.multiply.outer(_GL_T, half[part])
+            nodes += mid[part]
+            coefficients_part = [v[part] if np.ndim(v) else v for v in per_panel]
+            if one_side[part].all():
+                values = _log_f_one_side(nodes, slope[part], left_side[part],
+                                         coefficients_part)
+            else:
+                values = _log_f_rows(nodes, coefficients_part)
+            if tops is None:
+                top = np.maximum.reduceat(np.maximum.reduce(values, axis=0), starts)
+                top[~np.isfinite(top)] = 0.0
+                shift[np.flatnonzero(some) + r0] = top
+            else:
+                top = shift[r0:r1][some]
+            values -= top.repeat(counts[r0:r1][some])
+            np.exp(values, out=values)
+            sums = _GL_W @ values
+            sums *= half[part]
+            out[np.flatnonzero(some) + r0] = np.add.reduceat(sums, starts)
     with np.errstate(divide="ignore"):
         np.log(out, out=out)
-    out += tops
+    out += shift
     return out
 
 
 class _Layout:
-    """The pieces of Z(A, B) for a set of rows: end widths, peak, interior panels."""
+    """The pieces of Z(A, B) for a set of rows: end widths, peak, interior panels.
 
-    def __init__(self, A, B, c, h):
+    ``ends=False`` leaves the end pieces to :meth:`log_total`, which takes the series only
+    where they can matter (:func:`_log_z`); otherwise ``log_left`` and ``log_right`` are
+    exact on every row.
+    """
+
+    def __init__(self, A, B, c, h, ends=True):
         self.A, self.B, self.c, self.h = A, B, c, h
         rows = A.size
         # left end (rows 0) and, by x = 1 - z, right end (rows 1) in one pass
         AB = np.concatenate((A, B)).reshape(2, rows)
-        BA = AB[::-1]
         cc = np.concatenate((c, -c)).reshape(2, rows)
         hh = np.concatenate((h, 1 - h)).reshape(2, rows)
-        widths = _end_width(BA, cc, hh)
+        widths = _end_width(AB[::-1], cc, hh)
         log_w, log_1w = np.log(widths), np.log1p(-widths)
         self.x0, self.z0 = widths
         self.y_lo, self.y_hi = log_w[0] - log_1w[0], log_1w[1] - log_w[1]
         self.coefficients = _coefficients(A, B, c, h)
         with np.errstate(divide="ignore", invalid="ignore"):
-            y_peak, width, t_lo, t_hi = _peak(self.y_lo, self.y_hi, self.coefficients)
+            y_peak, width, t_lo, t_hi, self.top = _peak(self.y_lo, self.y_hi,
+                                                        self.coefficients)
             self.panels = _panels(t_lo, t_hi, y_peak, width)
-            sums = _end_series_sum(AB.ravel(), BA.ravel(), cc.ravel(), hh.ravel(), widths.ravel())
-            ends = AB * log_w
-            ends += np.log(sums).reshape(2, rows)
-        self.log_left, self.log_right = ends[0], ends[1] - c
+        self._ends = AB, cc, hh, widths, log_w
+        self.log_left = self.log_right = None
+        if ends:
+            self.log_left, self.log_right = self._log_ends(np.ones((2, rows), dtype=bool))
+
+    def _log_ends(self, need):
+        """Log of the end pieces (2, rows) where ``need`` (2, rows) holds, else -inf."""
+        AB, cc, hh, widths, log_w = self._ends
+        ends = np.full(AB.shape, -np.inf)
+        if need.any():
+            BA = AB[::-1]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                sums = _end_series_sum(AB[need], BA[need], cc[need], hh[need], widths[need])
+                ends[need] = AB[need] * log_w[need] + np.log(sums)
+        return ends[0], ends[1] - self.c
 
     def log_interior(self, upper=None):
         """Log ∫ over [y_lo, min(upper, y_hi)] (all of the interior when upper is None)."""
-        panels = self.panels
-        if upper is not None:
-            panels = tuple(np.minimum(p, upper[:, None]) for p in panels)
+        if upper is None:  # the peak's maximum scales every row
+            return _integrate(self.panels, self.coefficients, self.top)
+        panels = tuple(np.minimum(p, upper[:, None]) for p in self.panels)
         return _integrate(panels, self.coefficients)
 
     def log_total(self):
-        return np.logaddexp(np.logaddexp(self.log_left, self.log_interior()), self.log_right)
+        interior = self.log_interior()
+        if self.log_left is None:
+            # x0^A·Σ m_j/(A+j) <= x0^A·e^(max|ℓ|)/A with |ℓ| <= 0.11 on [0, x0]
+            # (_end_width), so an end whose bound is e^-50 below the interior changes
+            # log Z by < 2e-22 and is left out (end pieces of samples with k, n - k >> 1)
+            AB, cc, hh, widths, log_w = self._ends
+            with np.errstate(divide="ignore", invalid="ignore"):
+                bound = AB * log_w - np.log(AB) + 1.0
+            bound[1] -= self.c
+            need = ~(bound < interior - _NEGLIGIBLE_END)
+            self.log_left, self.log_right = self._log_ends(need)
+        return np.logaddexp(np.logaddexp(self.log_left, interior), self.log_right)
 
 
 def _log_z(A, B, c, h):
     """Log Z(A, B) = log ∫_0^1 x^(A-1)(1-x)^(B-1) exp(-c·S(x)) dx for flat rows."""
-    return _Layout(A, B, c, h).log_total()
+    return _Layout(A, B, c, h, ends=False).log_total()

@@ -74,12 +74,13 @@ from infer.core.drift.quadrature import (
     _end_series_sum,
     _end_width,
     _Layout,
-    _log_f,
+    _coefficients,
     _log_f_rows,
     _log_sum,
     _log_z,
     _nodes,
     _panels,
+    _value_coefficients,
 )
 from infer.core.drift import concentrated as _peak_rule
 from infer.core.stats import log_choose
@@ -620,14 +621,14 @@ def _log_expectation(log_p_given_x, a, b, c, h):
     g[rows:] -= c[:, None]
     y_lo, y_hi = np.log(x0) - np.log1p(-x0), np.log1p(-z0) - np.log(z0)
     probes = y_lo[:, None] + (y_hi - y_lo)[:, None] * _PROBE_FRACTIONS
-    cols = (a[:, None], b[:, None], c[:, None], h[:, None])
+    cols = _value_coefficients(_coefficients(a[:, None], b[:, None], c[:, None], h[:, None]))
     ends = z.shape[1]
     both = log_p(np.concatenate((z[:rows], 1 - z[rows:], special.expit(probes)), axis=1))
     g += np.concatenate((both[:, :ends], both[:, ends:2 * ends]))
-    values = _log_f(probes, *cols) + both[:, 2 * ends:]
+    values = _log_f_rows(probes, cols) + both[:, 2 * ends:]
 
     def log_f(y):
-        return _log_f(y, *cols) + log_p(special.expit(y))
+        return _log_f_rows(y, cols) + log_p(special.expit(y))
 
     y_peak, width, t_lo, t_hi = _parabola_peak(log_f, probes, values, y_lo, y_hi)
     nodes, weights = _nodes(_panels(t_lo, t_hi, y_peak, width))
