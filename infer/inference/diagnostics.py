@@ -43,9 +43,11 @@ def _split(x: np.ndarray) -> np.ndarray:
 def _average_ranks(values: np.ndarray) -> np.ndarray:
     """Ranks 1..n of the flattened values, ties given their average rank."""
     flat = values.ravel()
-    order = np.argsort(flat, kind="mergesort")
+    order = np.argsort(flat)  # ties get their average rank: their order does not matter
     sorted_values = flat[order]
-    _, first, counts = np.unique(sorted_values, return_index=True, return_counts=True)
+    # runs of equal values in the sorted order (np.unique would sort them again)
+    first = np.flatnonzero(np.concatenate([[True], sorted_values[1:] != sorted_values[:-1]]))
+    counts = np.diff(np.append(first, flat.size))
     average = first + (counts + 1) / 2.0
     ranks = np.empty(flat.size)
     ranks[order] = np.repeat(average, counts)

@@ -153,30 +153,62 @@ class GroupedIndependence(emcee.moves.Move):
         self.proposals = list(proposals)
         self.groups = len(self.proposals)
         self.evaluate = evaluate
+        #: (coordinates, log g) of every walker after the last move: a walker that has not
+        #: moved since (no other move took it elsewhere) keeps its density, which is fixed
+        self._known: tuple[np.ndarray, np.ndarray] | None = None
+
+    def _current_log_density(self, current: np.ndarray) -> np.ndarray:
+        """The proposal log density of every walker (g, m), recomputed where it moved.
+
+        Each block's density is fixed, so a cached value is exact for a walker whose
+        coordinates are unchanged; the others (moved by another move, or every walker at
+        the first call) are evaluated.
+        """
+        groups, m, ndim = current.shape
+        flat = current.reshape(-1, ndim)
+        known = np.empty(len(flat))
+        stale = np.ones(len(flat), dtype=bool)
+        if self._known is not None and self._known[0].shape == flat.shape:
+            coords, values = self._known
+            stale = np.any(coords != flat, axis=1)
+            known[~stale] = values[~stale]
+        for g, density in enumerate(self.proposals):
+            rows = g * m + np.flatnonzero(stale[g * m:(g + 1) * m])
+            if rows.size:
+                known[rows] = density.log_density(flat[rows])
+        return known.reshape(groups, m)
+
+    def _draw(self, current: np.ndarray, random):
+        """Proposals (g, m, ndim), and log g at the current points and at the proposals."""
+        groups, m, ndim = current.shape
+        proposed = np.empty_like(current)
+        at_proposed = np.empty((groups, m))
+        for g, density in enumerate(self.proposals):
+            proposed[g] = density.sample(random, m)
+        at_current = self._current_log_density(current)
+        for g, density in enumerate(self.proposals):
+            at_proposed[g] = density.log_density(proposed[g])
+        return proposed, at_current, at_proposed
 
     def _proposal(self, current: np.ndarray, random):
         """Proposals (g, m, ndim) and log factors log g(current) - log g(proposal)."""
-        groups, m, ndim = current.shape
-        proposed = np.empty_like(current)
-        factors = np.empty((groups, m))
-        for g, density in enumerate(self.proposals):
-            proposed[g] = density.sample(random, m)
-            both = density.log_density(np.concatenate([current[g], proposed[g]]))
-            factors[g] = both[:m] - both[m:]
-        return proposed, factors
+        proposed, at_current, at_proposed = self._draw(current, random)
+        return proposed, at_current - at_proposed
 
     def propose(self, model, state):
         """Move every walker at once; return the state and acceptances."""
         nwalkers, ndim = state.coords.shape
         per_group = nwalkers // self.groups
         current = state.coords.reshape(self.groups, per_group, ndim)
-        proposed, factors = self._proposal(current, model.random)
+        proposed, at_current, at_proposed = self._draw(current, model.random)
         proposed = proposed.reshape(-1, ndim)
         log_prob, blobs = self.evaluate(proposed)
         log_u = np.log(model.random.rand(nwalkers))
-        accept = factors.ravel() + log_prob - state.log_prob > log_u
+        accept = (at_current - at_proposed).ravel() + log_prob - state.log_prob > log_u
         state.coords[accept] = proposed[accept]
         state.log_prob[accept] = log_prob[accept]
         if blobs is not None:
             state.blobs[accept] = blobs[accept]
+        self._known = (state.coords.copy(),
+                       np.where(accept, at_proposed.ravel(), at_current.ravel()))
         return state, accept

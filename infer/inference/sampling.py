@@ -226,11 +226,13 @@ def _autocorr_times(emcee, chain: np.ndarray) -> np.ndarray:
     return np.where(np.isfinite(tau), tau, float(steps))
 
 
-def _diagnose(kept: np.ndarray, constrain=None):
+def _diagnose(kept: np.ndarray, constrain=None, full: bool = True):
     """ESS (bulk, tail) and split R-hat per parameter for kept (chains, steps, walkers, ndim).
 
     Computed on the (chain, walker-major draw) arrays of ``SamplingRun.z``, after
     ``constrain`` when given (the folded R-hat is not invariant under a change of scale).
+    Without ``full`` only the bulk ESS is computed (the tail ESS and R-hat are NaN): a
+    check that fails on length or bulk ESS alone needs no more.
     """
     chains, steps, walkers, ndim = kept.shape
     walker_major = kept.transpose(0, 2, 1, 3).reshape(chains, walkers * steps, ndim)
@@ -240,10 +242,12 @@ def _diagnose(kept: np.ndarray, constrain=None):
     ess_bulk = np.empty(ndim)
     ess_tail = np.empty(ndim)
     r_hat = np.empty(ndim)
+    ess_tail[:] = r_hat[:] = np.nan
     for j in range(ndim):
         ess_bulk[j] = diagnostics.ess_bulk(walker_major[..., j])
-        ess_tail[j] = diagnostics.ess_tail(walker_major[..., j])
-        r_hat[j] = diagnostics.r_hat(walker_major[..., j])
+        if full:
+            ess_tail[j] = diagnostics.ess_tail(walker_major[..., j])
+            r_hat[j] = diagnostics.r_hat(walker_major[..., j])
     return ess_bulk, ess_tail, r_hat
 
 
@@ -407,13 +411,17 @@ def run_to_convergence(
                 restarts += 1
                 restart = True
                 break
-            ess_bulk, ess_tail, r_hat = _diagnose(kept, constrain)
-            if report_ess is not None:
-                report_ess(float(np.min(ess_bulk)), settings.target_ess)
             long_enough = (main_steps - discard) > settings.tau_multiple * tau
             stable = (previous_tau is not None
                       and np.all(np.abs(tau - previous_tau) <= settings.tau_stability * tau))
             previous_tau = tau
+            ess_bulk, ess_tail, r_hat = _diagnose(kept, constrain, full=False)
+            # the tail ESS and R-hat only where they can decide (or the run ends here)
+            if ((long_enough.all() and stable and (ess_bulk >= settings.target_ess).all())
+                    or steps >= settings.max_steps):
+                ess_bulk, ess_tail, r_hat = _diagnose(kept, constrain)
+            if report_ess is not None:
+                report_ess(float(np.min(ess_bulk)), settings.target_ess)
             ok = ((ess_bulk >= settings.target_ess) & (r_hat < settings.max_r_hat)
                   & long_enough & ~stuck.any())
             if ok.all() and stable:

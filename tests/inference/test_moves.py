@@ -118,3 +118,35 @@ def test_independence_move_leaves_the_target_invariant():
     draws = sampler.get_chain()[500::10].ravel()
     pvalue = stats.kstest(draws, stats.norm(1.0, 0.5).cdf).pvalue
     assert pvalue > 1e-3, f"independence draws do not follow N(1, 0.5^2): KS p = {pvalue:.3g}"
+
+
+def test_independence_factor_is_exact_for_walkers_moved_by_other_moves():
+    # The move keeps log g of walkers it placed itself; a walker another move has taken
+    # elsewhere meanwhile must be evaluated again. Whatever the cache holds, the factor
+    # must equal log g(x) - log g(q) computed afresh (Tierney 1994, Annals of Statistics
+    # 22:1701: the Metropolis-Hastings ratio of an independence proposal).
+    from infer.inference.emcee_loader import load_emcee
+    from infer.inference.moves import GroupedIndependence
+
+    emcee = load_emcee()
+    groups, walkers = 2, 6
+    proposals = _shifted_proposal(groups)
+    move = GroupedIndependence(proposals, lambda p: (stats.norm.logpdf(p[:, 0]), None))
+    rng = np.random.default_rng(5)
+    coords = rng.normal(size=(groups * walkers, 1))
+    state = emcee.State(coords, stats.norm.logpdf(coords[:, 0]))
+
+    class Model:
+        random = np.random.RandomState(6)
+
+    for step in range(6):
+        if step % 2:  # another move shifts some walkers between two independence moves
+            shifted = rng.random(groups * walkers) < 0.5
+            state.coords[shifted] += rng.normal(size=(shifted.sum(), 1))
+            state.log_prob[shifted] = stats.norm.logpdf(state.coords[shifted, 0])
+        before = state.coords.copy().reshape(groups, walkers, 1)
+        cached = move._current_log_density(before)
+        fresh = np.stack([proposals[g].log_density(before[g]) for g in range(groups)])
+        assert np.allclose(cached, fresh, rtol=0, atol=1e-12), (
+            f"step {step}: the kept log g of the current walkers must equal log g afresh")
+        state, _ = move.propose(Model, state)
