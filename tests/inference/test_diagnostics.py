@@ -104,3 +104,17 @@ def test_indicator_ess_of_independent_draws_is_their_number():
     x = np.random.default_rng(8).normal(size=(4, 4000))
     ess = diagnostics.ess_indicator(x, 1.96)
     assert ess == pytest.approx(x.size, rel=0.1), f"iid N(0, 1): indicator ESS {ess:.0f}"
+
+
+def test_average_ranks_equal_scipy_rankdata_with_ties():
+    # Rank normalisation gives tied draws their average rank (Vehtari et al. 2021,
+    # Bayesian Analysis 16:667, section 3); scipy.stats.rankdata(method="average") is the
+    # independent reference, on draws with many ties (a walker that did not move).
+    from scipy.stats import rankdata
+
+    rng = np.random.default_rng(7)
+    for x in (rng.normal(size=(4, 500)), np.round(rng.normal(size=(3, 400)), 1),
+              np.repeat(rng.normal(size=(2, 50)), 4, axis=1), np.zeros((2, 5))):
+        expected = rankdata(x, method="average", axis=None).reshape(x.shape)
+        assert np.array_equal(diagnostics._average_ranks(x), expected), (
+            "average ranks must equal scipy.stats.rankdata(method='average')")
