@@ -208,6 +208,48 @@ def test_signal_in_a_batch_job_leaves_nothing(tmp_path, signum):
         f"the interrupt; found {left}")
 
 
+#: put on PYTHONPATH as sitecustomize: every command's run raises KeyboardInterrupt inside
+#: a string exec, as when Ctrl-C lands while a lazy import builds a dataclass
+INTERRUPT_INSIDE_EXEC = """\
+import types
+import infer.cli
+
+_build = infer.cli.build_parser
+
+
+def build_parser():
+    parser = _build()
+    parse = parser.parse_args
+
+    def parse_args(argv):
+        args = parse(argv)
+        args._module = types.SimpleNamespace(
+            run=lambda args: exec("raise KeyboardInterrupt", {}))
+        return args
+
+    parser.parse_args = parse_args
+    return parser
+
+
+infer.cli.build_parser = build_parser
+"""
+
+
+def test_interrupt_raised_inside_a_string_exec_still_exits_130(tmp_path):
+    """CPython 3.12 under ``python -m`` ends the process with SIGINT (status -2) after a
+    KeyboardInterrupt raised in a string ``exec``, even when the program caught it
+    (Modules/main.c, Py_RunMain). A Ctrl-C that lands during a lazy import did exactly
+    that in CI; the interrupted run must still exit 130 with its one line."""
+    (tmp_path / "sitecustomize.py").write_text(INTERRUPT_INSIDE_EXEC)
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join(
+        p for p in (str(tmp_path), os.environ.get("PYTHONPATH", "")) if p)}
+    done = subprocess.run(qhat_command("equilibrium", "--mu", "1e-6", "--s", "0.1"),
+                          cwd=tmp_path, env=env, capture_output=True, text=True,
+                          stdin=subprocess.DEVNULL, timeout=120)
+    assert (done.returncode, done.stderr) == (EXIT_INTERRUPTED, INTERRUPTED + "\n"), (
+        f"got {done.returncode}: {done.stderr!r}")
+
+
 # ---------------------------------------------------------------- the writing phase
 
 
