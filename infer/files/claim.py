@@ -34,6 +34,11 @@ the paper states and of the formula it used, and the observations it reports::
     epochs = [ { generations = 16 } ]  # (infer/files/history.py, docs/files.md 'History')
     founder = { founders = 80, generations_ago = 16, frequency = 0.05 }
 
+    [alternatives]                     # optional: how qhat check fits the alternatives
+    founder = { generations_ago = 15 } # weigh a founding 15 generations ago (q_founder
+                                       # ~ uniform(0, 0.5) unless a prior is given)
+    heterozygote-advantage = { h = { prior = "uniform", low = -5, high = 0 } }
+
     [[observations]]                   # exactly as in a study file; none: arithmetic only
     kind = "affected"
     affected = 40
@@ -46,7 +51,10 @@ the paper states and of the formula it used, and the observations it reports::
 A ``[history]`` is parsed by :func:`infer.files.history.parse_history` (through
 ``parse_study``, so a claim's history is refused exactly as a study's); the check then
 reads the frequencies today and at each observation's sampling time from it. A claimed
-``q_founder`` (bare or with an interval) is a value the history reads.
+``q_founder`` (bare or with an interval) is a value the history reads. An
+``[alternatives]`` table is read by
+:func:`infer.files.compare_table.parse_alternatives_table` (the model entries of a
+study's ``[compare]``).
 
 The authors' intervals (``lower``/``upper``) are read as central 95 % intervals. The
 observations are validated by :mod:`infer.model.observations.kinds` and the parameters
@@ -66,6 +74,7 @@ from typing import Any
 from infer.core.choices import AUTOSOMAL_MODES, X_LINKED_MODES
 from infer.errors import InputError
 from infer.files.history import HISTORY_PARAMETERS
+from infer.files.compare_table import CompareSettings, parse_alternatives_table
 from infer.files.reading import invalid_toml, read_text
 from infer.files.study import Study, check_germ_line_rates, parse_study
 from infer.model.priors.parsing import (
@@ -178,6 +187,9 @@ class Claim:
         Relative rounding allowed between a stated number and the value implied.
     seed : int
         Seed of the draws from the claim's uncertainty.
+    alternatives : infer.files.compare_table.CompareSettings
+        The priors under which the check fits each alternative explanation, and the
+        founding's age (``founder_generations``; None: no founder alternative).
     """
 
     path: str
@@ -192,6 +204,7 @@ class Claim:
     species: str | None = None
     tolerance: float = DEFAULT_TOLERANCE
     seed: int = DEFAULT_SEED
+    alternatives: CompareSettings = field(default_factory=CompareSettings)
 
     @property
     def values(self) -> dict[str, float]:
@@ -281,7 +294,9 @@ def _parse(document: Any, source: str) -> Claim:
     # Validate everything else as a study: the observations are checked against the
     # wide priors of mu, s and h (so data the claim makes impossible is a finding of the
     # check, not an input error); then every parameter is fixed at its claimed value.
-    study_document = {k: v for k, v in document.items() if k not in ("claimed", "reference")}
+    study_document = {k: v for k, v in document.items()
+                      if k not in ("claimed", "reference", "alternatives")}
+    alternatives = parse_alternatives_table(document.get("alternatives"))
     # a claim with no observations is pure arithmetic (stated numbers against the claimed
     # parameters): validate it with a stand-in observation, then drop it
     arithmetic_only = "observations" not in document or document["observations"] == []
@@ -347,6 +362,7 @@ def _parse(document: Any, source: str) -> Claim:
         species=species.strip() if species else None,
         tolerance=tolerance,
         seed=DEFAULT_SEED if study.seed is None else study.seed,
+        alternatives=alternatives,
     )
 
 

@@ -12,6 +12,14 @@
 
 ``qhat estimate`` ignores the table. The models and their default priors are listed in
 :data:`MODELS` (docs/model.md, 'Model comparison').
+
+A claim file's optional ``[alternatives]`` table takes the same model entries (no
+``models``, ``prior_odds``, ``sensitivity`` or ``method``): the priors under which
+``qhat check`` fits each alternative, and the founder model's ``generations_ago``
+(:func:`parse_alternatives_table`)::
+
+    [alternatives]
+    founder = { generations_ago = 15 }
 """
 
 from __future__ import annotations
@@ -24,8 +32,8 @@ from infer.errors import InputError
 from infer.model.priors.parsing import Prior, Uniform, parse_parameter
 from infer.validate import check_keys, choice, one_of, quote_value, real_number
 
-__all__ = ["MODELS", "NOT_YET", "METHODS", "CompareSettings", "parse_compare_table",
-           "DEFAULT_EXTRA_PRIORS", "DEFAULT_SENSITIVITY"]
+__all__ = ["MODELS", "METHODS", "CompareSettings", "parse_compare_table",
+           "parse_alternatives_table", "DEFAULT_EXTRA_PRIORS", "DEFAULT_SENSITIVITY"]
 
 #: model name -> what it says (the built ones)
 MODELS = {
@@ -36,8 +44,6 @@ MODELS = {
                "since then the deterministic life cycle (mu, s, h as in the study) has carried "
                "it to today, with no equilibrium assumed",
 }
-#: models not built yet, with the reason
-NOT_YET: dict[str, str] = {}
 METHODS = ("auto", "quadrature", "bridge")
 #: the prior on each model's extra parameters, unless the table gives one
 DEFAULT_EXTRA_PRIORS: dict[str, dict[str, Prior]] = {
@@ -86,9 +92,6 @@ def parse_models(value: Any, field_name: str) -> tuple[str, ...]:
     out = []
     for name in names:
         name = str(name).strip()
-        if name in NOT_YET:
-            raise InputError(f'"{name}" is {NOT_YET[name]}; built: {", ".join(MODELS)}',
-                             field=field_name)
         choice(name, MODELS, field_name)
         if name in out:
             raise InputError(f'"{name}" is named twice', field=field_name)
@@ -163,6 +166,24 @@ def parse_compare_table(table: Any, *, field_name: str = "compare") -> CompareSe
     return CompareSettings(models=models, prior_odds=odds, extra_priors=extra,
                            sensitivity=float(sensitivity), method=method,
                            founder_generations=founder_generations)
+
+
+def parse_alternatives_table(table: Any, *, field_name: str = "alternatives") -> CompareSettings:
+    """Validate a claim's ``[alternatives]`` table (None or absent: every default).
+
+    Raises
+    ------
+    InputError
+        A key other than the models with extra parameters, or any problem
+        :func:`parse_compare_table` finds in their entries.
+    """
+    if table is None:
+        return CompareSettings()
+    if not isinstance(table, dict):
+        raise InputError(f"{quote_value(table)} is not a table", field=field_name)
+    check_keys(table, (), tuple(name for name in MODELS if DEFAULT_EXTRA_PRIORS[name]),
+               field_name)
+    return parse_compare_table(table, field_name=field_name)
 
 
 def _generations_ago(value: Any, field_name: str) -> int:

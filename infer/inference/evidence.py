@@ -39,19 +39,30 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special
 
-from infer.inference.exact import EVALUATION_CAP, MAX_DIMENSIONS
+from infer.inference.exact import (
+    EVALUATION_CAP,
+    MAX_DIMENSIONS,
+    exact_posterior,
+    largest_quantile_move,
+    marginal_quantiles,
+)
 from infer.inference.exact_slices import WIDENINGS, level, locate, nodes
 
 __all__ = [
     "EvidenceEstimate",
     "quadrature_log_evidence",
+    "quadrature_fit",
+    "QuadratureFit",
     "bridge_log_evidence",
     "model_probabilities",
+    "strength",
     "QUADRATURE_TOLERANCE",
 ]
 
 #: refinement stops once log Z moves by less than this between two levels
 QUADRATURE_TOLERANCE = 1e-3
+#: relative move of the fitted quantiles below which a fit's refinement may stop
+FIT_QUANTILE_TOLERANCE = 1e-2
 _START = {1: 64, 2: 32, 3: 24}
 _GROWTH = 1.5
 _T_FACTOR = 2.0
@@ -109,6 +120,55 @@ def quadrature_log_evidence(model, tolerance: float = QUADRATURE_TOLERANCE,
     ValueError
         Outside one to three free parameters, or with no mass on the grid.
     """
+    return _nested_evidence(model, tolerance, max_evaluations, hint)[0]
+
+
+@dataclass(frozen=True)
+class QuadratureFit:
+    """A model's evidence and the posterior quantiles of its free parameters.
+
+    Attributes
+    ----------
+    evidence : EvidenceEstimate
+    quantiles : dict
+        Free parameter -> {"median", "lower", "upper"} at the interval asked for.
+    """
+
+    evidence: EvidenceEstimate
+    quantiles: dict[str, dict[str, float]]
+
+
+def quadrature_fit(model, interval: float, tolerance: float = QUADRATURE_TOLERANCE,
+                   quantile_tolerance: float = FIT_QUANTILE_TOLERANCE,
+                   max_evaluations: int = EVALUATION_CAP) -> QuadratureFit:
+    """Evidence and posterior quantiles of a model with one to three free parameters.
+
+    With one free parameter a single nested quadrature gives both: its refinement stops
+    once log Z moves by less than ``tolerance`` and the quantiles by less than
+    ``quantile_tolerance`` (relative) between two levels. With two or three, the
+    quantiles of the inner parameters need their own nesting order: they come from
+    :func:`infer.inference.exact.exact_posterior` refined to ``quantile_tolerance``.
+
+    Raises
+    ------
+    ValueError
+        Outside one to three free parameters, or with no mass on the grid.
+    """
+    evidence, first = _nested_evidence(model, tolerance, max_evaluations, None,
+                                       interval=interval, quantile_tolerance=quantile_tolerance)
+    if model.ndim == 1:
+        return QuadratureFit(evidence, {model.free[0]: first})
+    grid = exact_posterior(model, interval, tolerance=quantile_tolerance)
+    return QuadratureFit(evidence, {name: dict(grid.quantiles[name]) for name in model.free})
+
+
+def _nested_evidence(model, tolerance: float, max_evaluations: int, hint,
+                     interval: float | None = None, quantile_tolerance: float = 0.0):
+    """(EvidenceEstimate, quantiles of the first parameter or None) by nested quadrature.
+
+    With ``interval`` the refinement also waits for the first parameter's quantiles to
+    move by less than ``quantile_tolerance``.
+    """
     ndim = model.ndim
     if not 1 <= ndim <= MAX_DIMENSIONS:
         raise ValueError(f"quadrature needs 1 to {MAX_DIMENSIONS} free parameters")
@@ -117,6 +177,7 @@ def quadrature_log_evidence(model, tolerance: float = QUADRATURE_TOLERANCE,
     t_range, (order, middle, inner) = list(box[0]), plans[0]
     marginal, n = coarse[0], _START[ndim]
     previous, move, settled = None, math.inf, False
+    previous_quantiles = quantiles = None
     while evaluations + int(round(_T_FACTOR * n)) * n ** (ndim - 1) <= max_evaluations:
         nt = int(round(_T_FACTOR * n))
         for _ in range(WIDENINGS):
@@ -129,17 +190,25 @@ def quadrature_log_evidence(model, tolerance: float = QUADRATURE_TOLERANCE,
             width = t_range[1] - t_range[0]
             t_range = [t_range[0] - 0.25 * width * ends[0], t_range[1] + 0.25 * width * ends[1]]
         current = float(marginal.log_total)
+        if not math.isfinite(current):
+            raise ValueError("the posterior has no mass on the grid")
+        quantiles = (None if interval is None
+                     else marginal_quantiles(model.priors[0], marginal, interval))
         if previous is not None:
             move = abs(current - previous)
-            if move < tolerance and clean and not ends.any():
+            quantiles_moved = (quantiles is not None and previous_quantiles is not None
+                               and largest_quantile_move(previous_quantiles, quantiles)
+                               >= quantile_tolerance)
+            if move < tolerance and not quantiles_moved and clean and not ends.any():
                 settled = True
                 break
-        previous = current
+        previous, previous_quantiles = current, quantiles
         n = int(round(n * _GROWTH))
     if previous is None:
         raise ValueError("the evaluation cap leaves no room for a refinement level")
-    return EvidenceEstimate(float(marginal.log_total), float(move), "quadrature",
-                            int(evaluations), settled)
+    estimate = EvidenceEstimate(float(marginal.log_total), float(move), "quadrature",
+                                int(evaluations), settled)
+    return estimate, quantiles
 
 
 def _fit_normal(z: np.ndarray):
@@ -261,3 +330,21 @@ def model_probabilities(log_evidence: dict[str, float],
                    "prior_probability": float(prior[i]),
                    "posterior_probability": float(np.exp(log_post[i]))}
             for i, name in enumerate(names)}
+
+
+def strength(log10_factor: float) -> str:
+    """Kass & Raftery's (1995, JASA 90:773, section 3.2) words for a Bayes factor in favour.
+
+    On log10 of the factor: below 0.5 "not worth more than a bare mention", 0.5-1
+    "substantial", 1-2 "strong", above 2 "decisive".
+    """
+    if not math.isfinite(log10_factor):
+        return "decisive"
+    size = abs(log10_factor)
+    if size < 0.5:
+        return "not worth more than a bare mention"
+    if size < 1:
+        return "substantial"
+    if size < 2:
+        return "strong"
+    return "decisive"

@@ -149,13 +149,14 @@ class ExactPosterior:
 
 
 
-def _quantiles(prior, marginal: Marginal, interval: float) -> dict:
+def marginal_quantiles(prior, marginal: Marginal, interval: float) -> dict:
+    """Median and central ``interval`` of one parameter from its quadrature marginal."""
     tail = (1.0 - interval) / 2.0
     x, _ = prior.from_unconstrained(marginal.quantile([0.5, tail, 1.0 - tail]))
     return dict(zip(_KEYS, (float(v) for v in x), strict=True))
 
 
-def _largest_move(old: dict, new: dict) -> float:
+def largest_quantile_move(old: dict, new: dict) -> float:
     """Largest relative move of a quantile.
 
     Relative to the value, but never to less than 1 % of the interval's width: a
@@ -239,9 +240,9 @@ def exact_posterior(model, interval: float = 0.95, points: int | None = None,
                 width = s["t"][1] - s["t"][0]
                 s["t"] = [s["t"][0] - 0.25 * width * ends[0],
                           s["t"][1] + 0.25 * width * ends[1]]
-            q = _quantiles(priors[j], marginal, interval)
+            q = marginal_quantiles(priors[j], marginal, interval)
             if s["q"] is not None:
-                s["move"] = _largest_move(s["q"], q)
+                s["move"] = largest_quantile_move(s["q"], q)
                 # a level whose grid still borders on mass cannot be the last one
                 s["done"] = bool(s["move"] < tolerance and clean and not ends.any())
             s.update(q=q, marginal=marginal, middle=middle, inner=inner)

@@ -11,32 +11,14 @@ import math
 from pathlib import Path
 
 from infer.core.text import CAUTION, CAUTION_LINE, caution_sentence, fmt, shown
-from infer.files.compare_table import NOT_YET
+from infer.inference.evidence import strength
 from infer.reporting.folder import atomic_folder
 from infer.reporting.jsonout import dumps, versioned
 
 __all__ = ["compare_document", "text_report", "compare_markdown", "write_compare_report",
-           "COMPARE_FILES", "strength"]
+           "COMPARE_FILES"]
 
 COMPARE_FILES = ("report.md", "report.html", "compare.json")
-
-
-def strength(log10_factor: float) -> str:
-    """Kass & Raftery's (1995, JASA 90:773, section 3.2) words for a Bayes factor in favour.
-
-    On log10 of the factor: below 0.5 "not worth more than a bare mention", 0.5-1
-    "substantial", 1-2 "strong", above 2 "decisive".
-    """
-    if not math.isfinite(log10_factor):
-        return "decisive"
-    size = abs(log10_factor)
-    if size < 0.5:
-        return "not worth more than a bare mention"
-    if size < 1:
-        return "substantial"
-    if size < 2:
-        return "strong"
-    return "decisive"
 
 
 def _estimate(model) -> dict:
@@ -62,7 +44,7 @@ def compare_document(result) -> dict:
     return versioned({
         "title": result.title, "source": result.source, "interval": result.interval,
         "seed": result.seed, "models": models, "ranking": list(result.ranking),
-        "skipped": dict(result.skipped), "not_yet": dict(NOT_YET),
+        "skipped": dict(result.skipped),
         "sensitivity": [{"model": r.model, "parameter": r.parameter, "factor": r.factor,
                          "prior": r.prior, "log_evidence": r.log_evidence, "error": r.error,
                          "posterior_probability": r.posterior_probability}
@@ -113,8 +95,6 @@ def text_report(result, out: Path | None = None) -> str:
                      f"posterior probability {fmt(row.posterior_probability, 4)}")
     for name, reason in result.skipped.items():
         lines.append(f"  not weighed: {name}: {reason}")
-    for name, reason in NOT_YET.items():
-        lines.append(f"  not weighed: {name}: {reason}")
     unsettled = [m.name for m in result.models if m.estimate and not m.estimate.settled]
     if unsettled:
         lines.append(f"  warning: the evidence of {', '.join(unsettled)} did not settle to its "
@@ -155,7 +135,7 @@ def compare_markdown(result) -> str:
         for row in result.sensitivity:
             lines.append(f"| {row.model} | {row.parameter} ~ {row.prior} | "
                          f"{fmt(row.log_evidence, 6)} | {fmt(row.posterior_probability, 4)} |")
-    skipped = {**result.skipped, **NOT_YET}
+    skipped = result.skipped
     if skipped:
         lines += ["", "## Not weighed", ""]
         lines += [f"- {name}: {reason}" for name, reason in skipped.items()]

@@ -223,6 +223,9 @@ def _ranges(claim: Claim):
 def trade_findings(claim: Claim, from_data: dict) -> list[Finding]:
     """Compare the claimed and the implied mu with the measured mutation rates.
 
+    The implied mu is left out under a ``[history]`` (the frequency today is the
+    history's, not the balance's).
+
     Parameters
     ----------
     claim : infer.files.claim.Claim
@@ -256,7 +259,9 @@ def trade_findings(claim: Claim, from_data: dict) -> list[Finding]:
         findings.append(Finding(severity, "mutation-rate-outside-measured",
                                 f"The claimed mu = {fmt(mu)} is {word} the {text}{tail}.",
                                 {**details, "direction": word}))
-    implied = from_data.get("mu", {})
+    # under a [history] the frequency today is the history's: the rate the data need at
+    # equilibrium says nothing about the claim
+    implied = from_data.get("mu", {}) if claim.study.history is None else {}
     if implied.get("possible"):
         lower, upper, median = implied["hpd_lower"], implied["hpd_upper"], implied["median"]
         record = {**details, "implied_median": median, "implied_lower": lower,
@@ -307,12 +312,30 @@ def overdominance_advantage(q: float, s2: float) -> float:
     return q * s2 / (1.0 - q)
 
 
+def _ratio_text(weighed: dict) -> str:
+    """'evidence ratio against recurrent mutation at the claimed values 10^k (strength ...)'."""
+    from infer.inference.evidence import strength
+
+    ratio = weighed["log_evidence_ratio"] / math.log(10)
+    lead = "evidence ratio against recurrent mutation at the claimed values"
+    if not math.isfinite(ratio):
+        return f"{lead} infinite (the claimed balance makes the data impossible)"
+    side = "" if ratio >= 0 else " for the claimed balance"
+    return f"{lead} 10^{ratio:.1f} ({strength(ratio)}{side}; Kass & Raftery 1995)"
+
+
+def _interval_text(fitted: dict, scale: float = 1.0, digits: int = 3) -> str:
+    return (f"{fmt(scale * fitted['median'], digits)} ({fmt(scale * fitted['lower'], digits)} "
+            f"to {fmt(scale * fitted['upper'], digits)})")
+
+
 def _heterozygote_advantage(claim: Claim, q: float | None):
+    """(text, details, weighed or None, fallback score) of the overdominance alternative."""
     s = claim.values["s"]
     if q is None or not 0 < q < 1 or claim.inheritance != "autosomal" or s <= 0:
-        return 2.0, ("Heterozygote advantage (overdominance) could keep the allele more "
-                     "common than recurrent mutation can; carrier fitness or survival data "
-                     "would test it."), {}
+        return ("Heterozygote advantage (overdominance) could keep the allele more "
+                "common than recurrent mutation can; carrier fitness or survival data "
+                "would test it."), {}, None, 2.0
     s1 = overdominance_advantage(q, s)
     details = {"observed_frequency": q, "s_against_aa": s, "s1_needed": s1,
                "formula": "q = s1/(s1 + s2), fitnesses 1-s1 (AA), 1 (Aa), 1-s2 (aa)"}
@@ -329,17 +352,79 @@ def _heterozygote_advantage(claim: Claim, q: float | None):
     weighed = weigh_heterozygote_advantage(claim)
     if weighed is not None:
         details["weighed"] = weighed
-        a, ratio = weighed["advantage"], weighed["log_evidence_ratio"] / math.log(10)
-        shown_ratio = "infinite" if not math.isfinite(ratio) else f"10^{ratio:.1f}"
         text += (f". Fitted to the reported data (h ~ {weighed['prior']}, mu and s at their "
                  "claimed values, with mutation): an advantage of about "
-                 f"{fmt(100 * a['median'], 2)} % ({fmt(100 * a['lower'], 2)} to "
-                 f"{fmt(100 * a['upper'], 2)} %) holds the "
-                 f"observed frequency; evidence ratio against recurrent mutation at the "
-                 f"claimed values {shown_ratio}")
-        # ranked by the evidence (Kass & Raftery 1995): decisive for the advantage first
-        score = 0.25 if ratio > 2 else (1.0 if ratio > 0 else 3.5)
-    return score, text + "; carrier fitness or survival data would test it.", details
+                 f"{_interval_text(weighed['advantage'], 100, 2)} % holds the observed "
+                 f"frequency; {_ratio_text(weighed)}")
+    return text + "; carrier fitness or survival data would test it.", details, weighed, score
+
+
+def _founder_effect(claim: Claim, direction: str):
+    """(text, details, weighed or None, fallback score) of the founder alternative."""
+    from infer.jobs.check.weighed import weigh_founder
+
+    weighed = weigh_founder(claim)
+    if weighed is None:
+        word = "raised the allele above" if direction == "excess" else "left the allele below"
+        text = (f"A founder effect could have {word} its balance value; a founding time "
+                "in the claim file ([alternatives] founder = { generations_ago = N }) lets "
+                "qhat check weigh it, and frequencies in neighbouring populations would "
+                "test it.")
+        return text, {}, None, 2.0
+    text = (f"A founder event {weighed['generations_ago']} generations ago could explain the "
+            f"data with a founder frequency of about {_interval_text(weighed['q_founder'])}, "
+            f"q_founder ~ {weighed['prior']} carried to today by the deterministic life "
+            f"cycle at the claimed mu, s and h; {_ratio_text(weighed)}; frequencies in "
+            "neighbouring populations and the founders' origin would test it.")
+    return text, {"weighed": weighed}, weighed, 2.0
+
+
+def _drift(claim: Claim, q: float | None, direction: str):
+    """(text, details, weighed or None, fallback score) of the drift alternative."""
+    from infer.jobs.check.weighed import weigh_drift
+
+    if direction == "excess":
+        text = ("Drift could have raised the allele in this population above its balance "
+                "value; frequencies in neighbouring populations would test it")
+    else:
+        text = ("Drift could hold the allele below its balance value in a small "
+                "population; the drift model (model = \"drift\" with Ne) gives the "
+                "spread to expect")
+    details, score = {}, 2.0
+    chance = _drift_chance(claim, q, direction, claim.seed)
+    if chance is not None:
+        details = {"Ne": claim.values["Ne"], "probability": chance, "observed_frequency": q}
+        word = "at least" if direction == "excess" else "at most"
+        text += (f" (under Wright's stationary density with Ne = {fmt(claim.values['Ne'])} "
+                 f"the chance of a frequency {word} the observed {fmt(q)} is "
+                 f"{fmt(chance, 2)})")
+        score = 0.5 if chance >= 0.05 else 3.0
+    weighed = weigh_drift(claim)
+    if weighed is not None:
+        details["weighed"] = weighed
+        text += (f"; the reported data under Wright's stationary distribution at the "
+                 f"claimed values (Ne = {fmt(weighed['Ne'])}): {_ratio_text(weighed)}")
+    return text + ".", details, weighed, score
+
+
+def _ascertainment(claim: Claim | None, direction: str):
+    """(text, details, weighed or None, fallback score) of the ascertainment alternative."""
+    if direction == "excess":
+        return ("Ascertainment could inflate the observed frequency (cases collected through "
+                "clinics or affected families rather than all births); a population-based "
+                "count would test it."), {}, None, 1.5
+    from infer.jobs.check.weighed import weigh_completeness
+
+    weighed = weigh_completeness(claim) if claim is not None else None
+    text = ("Under-ascertainment could lower the observed frequency (missed, miscarried "
+            "or undiagnosed cases, reduced penetrance)")
+    if weighed is None:
+        return text + "; a complete population count would test it.", {}, None, 1.5
+    text += (f": a registry completeness of about {_interval_text(weighed['completeness'])}, "
+             f"completeness ~ {weighed['prior']} and the rest at the claimed values, would "
+             f"reconcile the counts; {_ratio_text(weighed)}; a capture-recapture count or a "
+             "complete population count would test it.")
+    return text, {"weighed": weighed}, weighed, 1.5
 
 
 def _drift_chance(claim: Claim, q: float | None, direction: str, rng_seed: int):
@@ -361,18 +446,36 @@ def _drift_chance(claim: Claim, q: float | None, direction: str, rng_seed: int):
     return float(np.mean(beyond))
 
 
+def _rank_key(option) -> tuple:
+    """Sort key: weighed alternatives the data favour first, then the untested ones.
+
+    The favoured by their evidence ratio (largest first), the untested by their fallback
+    score, then those the data weigh against.
+    """
+    _, _, _, weighed, score = option
+    if weighed is None:
+        return (1, score)
+    ratio = weighed["log_evidence_ratio"]
+    return (0, -ratio) if ratio > 0 else (2, -ratio)
+
+
 def alternative_explanations(findings: list[Finding], implied: dict,
                              claim: Claim | None = None) -> list[Finding]:
     """The alternatives, as ranked possibilities, when balance cannot explain the data.
 
-    Tailored to the claim when it is given: heterozygote advantage (excess only)
-    quantified by the carrier advantage that would hold the observed frequency
-    (:func:`overdominance_advantage`); drift or a founder effect unless drift was
-    modelled, with the chance of the observed frequency under Wright's density when Ne
-    is known; ascertainment only when some observation counts affected people (a
-    genotyped sample is not ascertained through cases); non-equilibrium last. Each note
-    carries ``rank`` (1 = most likely first) in its details.
+    Each alternative the claim's data allow is fitted and weighed against the claimed
+    balance (:mod:`infer.jobs.check.weighed`): heterozygote advantage (excess only), a
+    founder effect (when the claim's ``[alternatives] founder`` gives its age), drift at
+    the claimed Ne (Wright's stationary distribution; unless drift was modelled), and
+    under-ascertainment through a registry completeness below 1 (deficit, counts of
+    affected people); the others stay sentences that say what would test them. Ranked:
+    alternatives the data favour by their evidence ratio, then the untested ones, then
+    those the data weigh against. Each note carries ``rank`` (1 = most likely first) in
+    its details, and a weighed one its fit under ``weighed``. A claim with a
+    ``[history]`` gets none: it already explains the frequency by its history.
     """
+    if claim is not None and claim.study.history is not None:
+        return []
     direction = None
     for f in findings:
         if f.code == "implied-mutation-rate-outside-measured" and f.severity != "note":
@@ -391,53 +494,60 @@ def alternative_explanations(findings: list[Finding], implied: dict,
     counts_cases = not statistics or any(not s.of_alleles for s in statistics)
     drift_modelled = claim is not None and claim.study.model == "drift"
     q = observed_frequency(claim) if claim is not None else None
-    options = []  # (score, code, text, details): lower score = more likely
+    options = []  # (code, text, details, weighed or None, fallback score)
     if direction == "excess":
         if claim is not None:
             options.append(("possible-heterozygote-advantage",
                             *_heterozygote_advantage(claim, q)))
         else:
-            options.append(("possible-heterozygote-advantage", 2.0,
+            options.append(("possible-heterozygote-advantage",
                             "Heterozygote advantage (overdominance) could keep the allele "
                             "more common than recurrent mutation can; carrier fitness or "
-                            "survival data would test it.", {}))
-    if not drift_modelled:
-        chance = (_drift_chance(claim, q, direction, claim.seed) if claim is not None
-                  else None)
-        if direction == "excess":
-            text = ("Drift or a founder effect could have raised the allele in this "
-                    "population above its balance value; frequencies in neighbouring "
-                    "populations would test it")
-        else:
-            text = ("Drift could hold the allele below its balance value in a small "
-                    "population; the drift model (model = \"drift\" with Ne) gives the "
-                    "spread to expect")
-        details = {}
-        score = 2.0
-        if chance is not None:
-            details = {"Ne": claim.values["Ne"], "probability": chance,
-                       "observed_frequency": q}
-            word = "at least" if direction == "excess" else "at most"
-            text += (f" (under Wright's stationary density with Ne = {fmt(claim.values['Ne'])} "
-                     f"the chance of a frequency {word} the observed {fmt(q)} is "
-                     f"{fmt(chance, 2)})")
-            score = 0.5 if chance >= 0.05 else 3.0
-        options.append(("possible-drift-or-founder-effect", score, text + ".", details))
+                            "survival data would test it.", {}, None, 2.0))
+    if claim is not None:
+        options.append(("possible-founder-effect", *_founder_effect(claim, direction)))
+    if not drift_modelled and claim is not None:
+        options.append(("possible-drift", *_drift(claim, q, direction)))
     if counts_cases:
-        text = ("Ascertainment could inflate the observed frequency (cases collected through "
-                "clinics or affected families rather than all births); a population-based "
-                "count would test it." if direction == "excess" else
-                "Under-ascertainment could lower the observed frequency (missed, miscarried "
-                "or undiagnosed cases, reduced penetrance); a complete population count "
-                "would test it.")
-        options.append(("possible-ascertainment", 1.5, text, {}))
-    options.append(("possible-non-equilibrium", 4.0,
+        options.append(("possible-ascertainment", *_ascertainment(claim, direction)))
+    options.append(("possible-non-equilibrium",
                     "The population may not be at equilibrium (for example selection "
                     + ("recently relaxed by treatment, or a recent admixture"
                        if direction == "excess" else
                        "recently strengthened, or a recent expansion")
-                    + "); the balance value assumes it has settled.", {}))
-    options.sort(key=lambda option: option[1])
+                    + "); the balance value assumes it has settled. A [history] in the claim "
+                    "file (selection changed k generations ago, say) checks the claim under "
+                    "it.", {}, None, 4.0))
+    options.sort(key=_rank_key)
+    options = _against_the_next(options)
     return [Finding("note", code, f"({rank}) {text}",
                     {"because": why, "direction": direction, "rank": rank, **details})
-            for rank, (code, _, text, details) in enumerate(options, start=1)]
+            for rank, (code, text, details, _, _) in enumerate(options, start=1)]
+
+
+#: what each alternative is called when another is weighed against it
+_NAMES = {"possible-heterozygote-advantage": "heterozygote advantage",
+          "possible-founder-effect": "the founder event", "possible-drift": "drift",
+          "possible-ascertainment": "under-ascertainment"}
+
+
+def _against_the_next(options: list) -> list:
+    """The first weighed alternative also weighed against the next weighed one.
+
+    How clear the ranking is: the ratio of the two evidences (Kass & Raftery 1995), in
+    the text and as ``details.against_next`` (``alternative``, ``log10_ratio``).
+    """
+    from infer.inference.evidence import strength
+
+    weighed = [i for i, option in enumerate(options) if option[3] is not None]
+    if len(weighed) < 2:
+        return options
+    first, second = options[weighed[0]], options[weighed[1]]
+    ratio = (first[3]["log_evidence"] - second[3]["log_evidence"]) / math.log(10)
+    code, text, details, fit, score = first
+    name = _NAMES[second[0]]
+    text = (text.rstrip(".") + f"; against the next weighed alternative, {name}: 10^{ratio:.1f} "
+            f"({strength(ratio)}; Kass & Raftery 1995).")
+    details = {**details, "against_next": {"alternative": second[0], "log10_ratio": ratio}}
+    return [(code, text, details, fit, score) if i == weighed[0] else option
+            for i, option in enumerate(options)]

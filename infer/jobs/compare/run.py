@@ -1,6 +1,6 @@
 """Weigh a study's data under competing models: evidences, Bayes factors, model probabilities.
 
-Each model (:mod:`infer.jobs.compare.models`) is the study with some priors replaced. Its
+Each model (:mod:`infer.files.alternative_studies`) is the study with some priors replaced. Its
 evidence p(data | model) comes from nested quadrature up to three free parameters and
 from bridge sampling (Meng & Wong 1996) on the sampler's draws above
 (:mod:`infer.inference.evidence`). Posterior model probabilities follow from the
@@ -23,10 +23,11 @@ from infer.inference.evidence import (
     EvidenceEstimate,
     bridge_log_evidence,
     model_probabilities,
+    quadrature_fit,
     quadrature_log_evidence,
 )
 from infer.inference.exact import MAX_DIMENSIONS
-from infer.jobs.compare.models import model_study, scaled_prior
+from infer.files.alternative_studies import model_study, scaled_prior
 from infer.model.posterior import Model
 
 __all__ = ["ModelEvidence", "SensitivityRow", "CompareResult", "compare_models",
@@ -142,17 +143,6 @@ def _fitted_from(model: Model, z: np.ndarray, interval: float) -> dict:
     return fitted
 
 
-def _quadrature_fit(model: Model, interval: float) -> dict:
-    """Median and central interval of each free parameter, from the exact marginals.
-
-    By infer.inference.exact, refined until each quantile moves by less than 1 %.
-    """
-    from infer.inference.exact import exact_posterior
-
-    grid = exact_posterior(model, interval, tolerance=1e-2)
-    return {name: dict(grid.quantiles[name]) for name in model.free}
-
-
 def _sample(model: Model, rng: np.random.Generator, sampler: dict):
     from infer.inference.sampling import SamplerSettings, run_to_convergence
 
@@ -176,10 +166,12 @@ def _evidence(model: Model, method: str, rng, sampler: dict, interval: float,
                          f"model has {model.ndim}", field="compare.method")
     if use == "quadrature":
         try:
-            estimate = quadrature_log_evidence(model)
+            if not fit:
+                return quadrature_log_evidence(model), {}
+            weighed = quadrature_fit(model, interval)
         except ValueError:
             return None, {}
-        return estimate, (_quadrature_fit(model, interval) if fit else {})
+        return weighed.evidence, weighed.quantiles
     run = _sample(model, rng, sampler)
     z = run.z.reshape(-1, model.ndim)
     estimate = bridge_log_evidence(model.log_posterior, z, rng,

@@ -106,7 +106,7 @@ def test_cystic_fibrosis_argument_is_an_error(tmp_path):
     assert _codes(result).count("statement-agrees") == 2, (
         f"incidence and carrier frequency should both agree: {_codes(result)}")
     # heterozygote advantage and the other classic alternatives, worded as possibilities
-    for code in ("possible-heterozygote-advantage", "possible-drift-or-founder-effect",
+    for code in ("possible-heterozygote-advantage", "possible-founder-effect", "possible-drift",
                  "possible-ascertainment", "possible-non-equilibrium"):
         finding = _finding(result, code)
         assert finding.severity == "note", (

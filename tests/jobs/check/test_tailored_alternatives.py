@@ -19,7 +19,7 @@ from infer.jobs.check.trade import overdominance_advantage
 from infer.jobs.estimate.results import data_warnings
 from infer.reporting.check_report import text_report
 
-ALTERNATIVES = ("possible-heterozygote-advantage", "possible-drift-or-founder-effect",
+ALTERNATIVES = ("possible-heterozygote-advantage", "possible-founder-effect", "possible-drift",
                 "possible-ascertainment", "possible-non-equilibrium")
 
 # an invented haemoglobin-like variant: genotypes of newborns, q ~ 0.105, s = 0.8
@@ -92,7 +92,7 @@ def test_newborn_genotype_claim_gets_tailored_ranked_alternatives(tmp_path):
 def test_no_drift_note_when_drift_was_modelled(tmp_path):
     result = check_claim(_claim(tmp_path, HB.format(model="drift", extra="Ne = 2000\nnu = 1e-8")))
     codes = [f.code for f in result.findings]
-    assert "possible-drift-or-founder-effect" not in codes, (
+    assert "possible-drift" not in codes, (
         f"drift was modelled: no drift alternative ({codes})")
     line = next(t for t in text_report(result).splitlines() if "implied by the claim" in t)
     assert "Wright's stationary density" in line, (

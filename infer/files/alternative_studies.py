@@ -1,4 +1,7 @@
-"""The competing models of ``qhat compare``: each is the study with some priors replaced.
+"""The competing explanations as studies: each is the study with some priors replaced.
+
+Used by ``qhat compare`` (every model weighed by its evidence) and ``qhat check`` (each
+alternative to a claimed balance that the data allow, fitted and weighed).
 
 * ``balance``: the study as written (mutation-selection balance, its own priors).
 * ``heterozygote-advantage``: the same data and priors, except h, which takes the
@@ -52,8 +55,8 @@ def model_study(study, name: str, extra_priors: dict, founder_generations: int |
 def _founder_study(study, extra_priors: dict, generations: int | None):
     """The study with a founder event (q_founder free) ``generations`` ago, or a reason."""
     if generations is None:
-        return ("give the founding's age: [compare] founder = { generations_ago = N } "
-                "(generations)")
+        return ("give the founding's age: founder = { generations_ago = N } (generations) "
+                "in [compare] of a study or [alternatives] of a claim")
     if study.inheritance != "autosomal" or study.model != "deterministic":
         return ("built for autosomal loci under the deterministic model only "
                 f"(this study: {study.inheritance}, {study.model})")
