@@ -25,7 +25,9 @@ from infer.files.study import parse_study
 from infer.inference.evidence import (
     bridge_log_evidence,
     model_probabilities,
+    quadrature_fit,
     quadrature_log_evidence,
+    strength,
 )
 from infer.model.posterior import Model
 from infer.model.priors.families import Beta
@@ -88,6 +90,25 @@ def test_quadrature_matches_the_beta_binomial(k, n, a, b):
     assert found.settled and abs(found.log_evidence - exact) < 2e-3, (
         f"log evidence {found.log_evidence:.6f} vs the beta-binomial {exact:.6f} "
         "(scipy.stats.betabinom)")
+
+
+@pytest.mark.parametrize("k, n, a, b", [(37, 120, 2.0, 3.0), (0, 50, 1.0, 1.0),
+                                        (995, 1000, 2.0, 2.0)])
+def test_one_pass_fit_gives_the_beta_posterior(k, n, a, b):
+    """With one free parameter a single quadrature gives the evidence and the quantiles:
+    the posterior is Beta(a + k, b + n - k) (conjugacy; scipy.stats.beta)."""
+    fit = quadrature_fit(BetaBinomial(k, n, a, b), 0.95)
+    assert abs(fit.evidence.log_evidence - float(stats.betabinom.logpmf(k, n, a, b))) < 2e-3
+    posterior = stats.beta(a + k, b + n - k)
+    for key, p in (("median", 0.5), ("lower", 0.025), ("upper", 0.975)):
+        assert fit.quantiles["p"][key] == pytest.approx(posterior.ppf(p), rel=1e-2), (
+            f"{key}: {fit.quantiles['p'][key]:.6g} vs the beta quantile {posterior.ppf(p):.6g}")
+
+
+def test_bayes_factor_words():
+    """Kass & Raftery 1995 (JASA 90:773, section 3.2), on log10 of the factor."""
+    assert [strength(v) for v in (0.2, -0.7, 1.5, 2.5, math.inf)] == [
+        "not worth more than a bare mention", "substantial", "strong", "decisive", "decisive"]
 
 
 @pytest.mark.parametrize("k, n, a, b", [(37, 120, 2.0, 3.0), (3, 400, 1.0, 1.0)])
