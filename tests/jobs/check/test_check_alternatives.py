@@ -215,3 +215,49 @@ def test_bad_alternatives_are_refused_in_one_line(tmp_path, table, field, words)
     line = run.stderr.strip()
     assert "\n" not in line and "Traceback" not in line, line
     assert "claim.toml" in line and field in line and words in line, line
+
+
+def _today(q0, mu, s, h, generations):
+    """q after ``generations`` of the textbook life cycle: selection on Hardy–Weinberg
+    zygotes (fitnesses 1, 1 - hs, 1 - s), then mutation A -> a (Crow & Kimura 1970, ch. 6)."""
+    q = q0
+    for _ in range(generations):
+        p = 1 - q
+        w = p * p + 2 * p * q * (1 - h * s) + q * q * (1 - s)
+        q_sel = (p * q * (1 - h * s) + q * q * (1 - s)) / w
+        q = q_sel + (1 - q_sel) * mu
+    return q
+
+
+def _random_founder_claims(seed, count):
+    rng = np.random.default_rng(seed)
+    for _ in range(count):
+        mu = float(10 ** rng.uniform(-7, -4))
+        s, h = float(rng.uniform(0.05, 1.0)), float(rng.uniform(0.0, 1.0))
+        generations, n = int(rng.integers(5, 41)), int(rng.integers(200, 5001))
+        k = int(rng.binomial(n, _today(float(rng.uniform(0.01, 0.3)), mu, s, h, generations)))
+        yield mu, s, h, generations, k, n
+
+
+@pytest.mark.parametrize("mu, s, h, generations, k, n", list(_random_founder_claims(18, 8)))
+def test_founder_alternative_on_random_claims_against_quad(tmp_path, mu, s, h, generations,
+                                                          k, n):
+    """Random claims from the documented ranges: the founder alternative's evidence is
+    ∫ Binomial(k | n, q_t(q0)) dq0 / 0.5 over q0 ~ uniform(0, 0.5), q_t by the textbook
+    recursion above and the integral by scipy.integrate.quad."""
+    text = (FOUNDER.replace("mu = 1e-12", f"mu = {mu!r}").replace("s = 1e-9", f"s = {s!r}")
+            .replace("h = 0.5", f"h = {h!r}")
+            .replace("generations_ago = 10", f"generations_ago = {generations}"))
+    claim = _claim(tmp_path, text.format(k=k, n=n, prior=""))
+    fit = weighed.weigh_founder(claim)
+    assert fit is not None
+
+    def integrand(q0):
+        return stats.binom.pmf(k, n, _today(q0, mu, s, h, generations)) / 0.5
+
+    grid = np.linspace(0.0, 0.5, 201)
+    peak = grid[np.argmax([integrand(q) for q in grid])]
+    reference = integrate.quad(integrand, 0.0, 0.5, points=[peak], limit=400,
+                               epsabs=0, epsrel=1e-9)[0]
+    assert fit["log_evidence"] == pytest.approx(math.log(reference), abs=3e-3), (
+        f"founder evidence {fit['log_evidence']:.5f} vs scipy quad {math.log(reference):.5f}")
