@@ -168,10 +168,7 @@ class Model:
                     k, n, constant = form
                     ll = constant + drift.log_binomial_probability(k, n, *rates)
                 else:
-                    def log_p(x, observation=observation):
-                        return observation.log_likelihood_given_frequency(x, params)
-
-                    ll = drift.log_expectation(log_p, *rates)
+                    ll = drift.log_expectation(observation.frequency_likelihood(params), *rates)
             else:
                 if state is None:
                     state = self.state(params)

@@ -188,3 +188,67 @@ def linear_noise_sd(Ne, mu, s, h, nu):
     x = brentq(lambda x: m(x) / mu, 1e-300, 0.5, xtol=1e-300, rtol=1e-15, maxiter=500)
     slope = -mu - nu - s * ((1 - 2 * x) * (h + (1 - 2 * h) * x) + x * (1 - x) * (1 - 2 * h))
     return math.sqrt(x * (1 - x) / (2 * Ne) / (2 * abs(slope)))
+
+
+def log_expectation(probability, Ne, mu, s, h, nu, scale=1):
+    """log ∫ P(x) φ(x) dx for an mpmath function ``probability`` = P(data | x), P ≥ 0.
+
+    The pieces of :func:`log_z` with P folded in (derived, as there): on the ends
+    [0, x1] and [1 - x1, 1], x1 = 1e-3/(a + b + |c| + scale + 1) (``scale``: the
+    largest count in P, so that P is smooth across the ends), ∫ x^(a-1) G(x) dx =
+    x1^a [G(0)/a + ∫_0^∞ e^(-at) (G(x1 e^(-t)) - G(0)) dt] with G = (1-x)^(b-1) e^(-cS) P
+    (and the mirror image at x = 1); in between, in y = logit x, break points every 1/2
+    in y and at the mode of the whole integrand (a 600-point scan, then golden-section
+    search at the working precision) ± multiples of its curvature scale.
+    """
+    with mp.workdps(DIGITS):
+        Ne, mu, s, nu, h = (mp.mpf(v) for v in (Ne, mu, s, nu, h))
+        A, B, c = 4 * Ne * mu, 4 * Ne * nu, 2 * Ne * s
+        x1 = mp.mpf("1e-3") / (A + B + abs(c) + scale + 1)
+
+        def end(A, G):
+            g0 = G(mp.mpf(0))
+
+            def remainder(t):
+                return mp.e ** (-A * t) * (G(x1 * mp.e ** (-t)) - g0)
+
+            pts = [0, 1, 2, 4, 8, 16, 32, 64, 128, mp.inf]
+            return x1**A * (g0 / A + mp.quad(remainder, pts))
+
+        left = end(A, lambda x: (1 - x) ** (B - 1) * mp.e ** (-c * _S(x, h)) * probability(x))
+        right = end(B, lambda z: (1 - z) ** (A - 1) * mp.e ** (-c * _S(1 - z, h))
+                    * probability(1 - z))
+
+        def log_f(y):
+            x = 1 / (1 + mp.e ** (-y))
+            p = probability(x)
+            if p <= 0:
+                return mp.ninf
+            return A * mp.log(x) + B * mp.log(1 - x) - c * _S(x, h) + mp.log(p)
+
+        y_lo, y_hi = mp.log(x1 / (1 - x1)), mp.log((1 - x1) / x1)
+        grid = [y_lo + (y_hi - y_lo) * i / 600 for i in range(601)]
+        values = [log_f(y) for y in grid]
+        best = max(range(601), key=lambda i: values[i])
+        lo, hi = grid[max(best - 1, 0)], grid[min(best + 1, 600)]
+        ratio = (mp.sqrt(5) - 1) / 2
+        for _ in range(120):  # golden-section search for the maximum on [lo, hi]
+            u, v = hi - ratio * (hi - lo), lo + ratio * (hi - lo)
+            lo, hi = (lo, v) if log_f(u) > log_f(v) else (u, hi)
+        mode = (lo + hi) / 2
+        top = log_f(mode)
+        eps = mp.mpf("1e-6")
+        curv = (log_f(mode + eps) - 2 * top + log_f(mode - eps)) / eps**2
+        sigma = min(mp.mpf(1), 1 / mp.sqrt(abs(curv) + mp.mpf("1e-30")))
+        pts = {y_lo, y_hi}
+        k = mp.ceil(2 * y_lo) / 2
+        while k < y_hi:
+            pts.add(k)
+            k += mp.mpf(1) / 2
+        for m in (0, 0.5, 1, 1.5, 2, 3, 4, 5, 6, 8, 10, 12, 16, 24, 32):
+            for sign in (-1, 1):
+                p = mode + sign * m * sigma
+                if y_lo < p < y_hi:
+                    pts.add(p)
+        middle = mp.quad(lambda y: mp.e ** (log_f(y) - top), sorted(pts))
+        return mp.log(left + right + middle * mp.e**top) - log_z(A, B, c, h)

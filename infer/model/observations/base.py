@@ -215,11 +215,32 @@ class Observation:
         -------
         ndarray, shape (n, m)
         """
+        return self.frequency_likelihood(params)(x)
+
+    def frequency_likelihood(self, params: dict):
+        """Log P(data | x) as a function of ``x`` alone, for fixed parameter rows.
+
+        The same values as :meth:`log_likelihood_given_frequency`; the parameter columns
+        are prepared once, for a quadrature that asks for many sets of nodes.
+
+        Parameters
+        ----------
+        params : dict of str to ndarray
+            Life-cycle parameters, ``(n,)`` arrays.
+
+        Returns
+        -------
+        callable
+            ``x`` of shape (n, m) to log P(data | x) of shape (n, m).
+        """
         if not self.depends_on_frequency:
             raise TypeError(f"{self.kind} does not depend on the allele frequency")
-        x = np.asarray(x, dtype=float)
         column = {k: np.asarray(v, dtype=float)[..., None] for k, v in params.items()}
-        return self._given_frequency(x, column)
+
+        def log_p(x):
+            return self._given_frequency(np.asarray(x, dtype=float), column)
+
+        return log_p
 
     def _log_likelihood(self, state: BalanceState) -> np.ndarray:
         """Log-probability of the data per row (NaN and -inf become -inf)."""
