@@ -385,6 +385,7 @@ class _Layout:
             y_peak, width, t_lo, t_hi, self.top = _peak(self.y_lo, self.y_hi,
                                                         self.coefficients)
             self.panels = _panels(t_lo, t_hi, y_peak, width)
+        self.y_peak, self.width = y_peak, width
         self._ends = AB, cc, hh, widths, log_w
         self.log_left = self.log_right = None
         if ends:
@@ -426,3 +427,115 @@ class _Layout:
 def _log_z(A, B, c, h):
     """Log Z(A, B) = log ∫_0^1 x^(A-1)(1-x)^(B-1) exp(-c·S(x)) dx for flat rows."""
     return _Layout(A, B, c, h, ends=False).log_total()
+
+
+# ---------------------------------------------------------------- tilted rows
+#: largest change of log x^δ, relative to its value at the peak, across a row's range
+#: (y_lo .. y_hi) for which that row's layout is reused for exponent A + δ
+_TILT_SPAN = 10.0
+
+
+def _log_x(y):
+    """Log x at y = logit x, without cancellation: min(y, 0) - log(1 + e^(-|y|))."""
+    return np.minimum(y, 0.0) - np.log1p(np.exp(-np.abs(y)))
+
+
+def _log_z_tilted(A, B, c, h, deltas):
+    """Log Z(A + δ_j, B) for rows (A, B, c, h) and shifts ``deltas`` (rows, m).
+
+    Z(A + δ) integrates the row's own integrand times x^δ. Where that factor is nearly
+    constant on the row's scale, the row's layout (peak, range, panels) serves every δ:
+    the integrand is evaluated once at the panels' nodes and re-weighted by e^(δ·log x)
+    for each δ, and the left end piece (whose width does not depend on A) is summed
+    again with exponent A + δ. A shift qualifies when the right end piece is negligible
+    (its width depends on A), when |δ|·|log x - log x*| ≤ :data:`_TILT_SPAN` over the
+    row's whole range (x* the peak: cut-off regions stay below e^-30 of it, and each
+    panel's factor is analytic with bounded growth) and when |δ|·w ≤ 1 (the peak moves by
+    at most δ·w², less than its scale w, so the template still resolves it). Other
+    shifts get their own quadrature (:func:`_log_z`).
+    """
+    deltas = np.asarray(deltas, dtype=float)
+    rows, m = deltas.shape
+    layout = _Layout(A, B, c, h, ends=False)
+    interior = layout.log_interior()
+    AB, cc, hh, widths, log_w = layout._ends
+    with np.errstate(divide="ignore", invalid="ignore"):
+        right_bound = B * log_w[1] - np.log(B) + 1.0 - c
+    right_negligible = right_bound < interior - _NEGLIGIBLE_END
+    log_x_peak = _log_x(layout.y_peak)
+    span = np.maximum(np.abs(_log_x(layout.y_lo) - log_x_peak),
+                      np.abs(_log_x(layout.y_hi) - log_x_peak))
+    usable = (right_negligible[:, None] & (np.abs(deltas) * span[:, None] <= _TILT_SPAN)
+              & (np.abs(deltas) * layout.width[:, None] <= 1.0) & (A[:, None] + deltas > 0))
+    out = np.empty((rows, m))
+    if usable.any():
+        tilted = _integrate_tilted(layout.panels, layout.coefficients, layout.top,
+                                   np.where(usable, deltas, 0.0), log_x_peak)
+        shifted = A[:, None] + deltas
+        with np.errstate(divide="ignore", invalid="ignore"):
+            bound = shifted * log_w[0][:, None] - np.log(shifted) + 1.0
+        need = usable & ~(bound < tilted - _NEGLIGIBLE_END)
+        left = np.full((rows, m), -np.inf)
+        if need.any():
+            where = np.nonzero(need)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                sums = _end_series_sum(shifted[need], B[where[0]], c[where[0]], h[where[0]],
+                                       widths[0][where[0]])
+                left[need] = shifted[need] * log_w[0][where[0]] + np.log(sums)
+        out[usable] = np.logaddexp(left, tilted)[usable]
+    other = ~usable
+    if other.any():
+        where = np.nonzero(other)
+        out[other] = _log_z(A[where[0]] + deltas[other], B[where[0]], c[where[0]], h[where[0]])
+    return out
+
+
+def _integrate_tilted(panels, coefficients, tops, deltas, log_x_peak):
+    """Log ∫ exp(L(y) + δ_j·log x) dy over the panels, for every row and column δ_j.
+
+    As :func:`_integrate` (the integrand evaluated once per node, in chunks of whole
+    rows), each row scaled by its peak value ``tops`` + δ_j·``log_x_peak``.
+    """
+    lo, hi = panels
+    rows, m = deltas.shape
+    wide = hi > lo
+    counts = np.add.reduce(wide, axis=1)
+    left, right = lo[wide], hi[wide]
+    out = np.zeros((rows, m))
+    shift = np.where(np.isfinite(tops), tops, 0.0)
+    if left.size:
+        mid, half = 0.5 * (right + left), 0.5 * (right - left)
+        per_panel = [v.repeat(counts) if np.ndim(v) else v
+                     for v in _value_coefficients(coefficients)]
+        panel_deltas = deltas.repeat(counts, axis=0)                    # (panels, m)
+        panel_base = shift.repeat(counts)
+        panel_peak = log_x_peak.repeat(counts)
+        ends = np.cumsum(counts)
+        firsts = ends - counts
+        size = max(1, _CHUNK_NODES // _GL_T.size)
+        cuts = np.flatnonzero(np.diff(firsts // size)) + 1
+        for r0, r1 in zip(np.r_[0, cuts], np.r_[cuts, rows], strict=True):
+            p0, p1 = firsts[r0], ends[r1 - 1]
+            if p1 == p0:
+                continue
+            some = counts[r0:r1] > 0
+            starts = firsts[r0:r1][some] - p0
+            part = slice(p0, p1)
+            nodes = np.multiply.outer(_GL_T, half[part])
+            nodes += mid[part]
+            values = _log_f_rows(nodes, [v[part] if np.ndim(v) else v for v in per_panel])
+            values -= panel_base[part]
+            log_x = _log_x(nodes)
+            log_x -= panel_peak[part]
+            target = np.flatnonzero(some) + r0
+            for j in range(m):
+                tilted = log_x * panel_deltas[part, j]
+                tilted += values
+                np.exp(tilted, out=tilted)
+                sums = _GL_W @ tilted
+                sums *= half[part]
+                out[target, j] = np.add.reduceat(sums, starts)
+    with np.errstate(divide="ignore"):
+        np.log(out, out=out)
+    out += shift[:, None] + deltas * log_x_peak[:, None]
+    return out

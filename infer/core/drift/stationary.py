@@ -54,6 +54,11 @@ table along mu, :mod:`infer.core.drift.normaliser_table`); otherwise the normali
 the last few sets of rows is remembered, so the frequency-dependent observations of one
 log-posterior call (the same rows) compute it once.
 
+Rows that differ only in mu (``qhat batch``'s rates of one locus) share the sample's
+layout: :func:`log_binomial_probability_along_mu` evaluates the integrand once and
+re-weights it by x^δ for each rate where that is safe (criteria in
+``infer.core.drift.quadrature._log_z_tilted``).
+
 Large Ne: rows whose density is one narrow interior peak and whose exponents reach
 :data:`infer.core.drift.concentrated.LIMIT` (the rule and its tests are in that module)
 are integrated around the mode instead, where these integrals of size-Ne exponents lose
@@ -78,6 +83,7 @@ from infer.core.drift.quadrature import (
     _log_f_rows,
     _log_sum,
     _log_z,
+    _log_z_tilted,
     _nodes,
     _panels,
     _value_coefficients,
@@ -92,6 +98,7 @@ __all__ = [
     "stationary_summary",
     "probability_absent",
     "log_binomial_probability",
+    "log_binomial_probability_along_mu",
     "log_expectation",
     "stationary_quantile",
     "sample_stationary",
@@ -366,6 +373,50 @@ def log_binomial_probability(k, n, Ne, mu, s, h, nu, *, log_z=None):
         out[rest] = _log_ratio(k[rest], n[rest], a[rest], b[rest], c[rest], h[rest],
                                None if given is None else given[rest])
     return (log_choose(n, k) + out).reshape(shape)
+
+
+def log_binomial_probability_along_mu(k, n, Ne, mu, s, h, nu, *, log_z):
+    """:func:`log_binomial_probability` at several mutation rates of each row at once.
+
+    Rows that differ only in mu differ in the sample's integral Z(a+k, b+n-k) only by the
+    factor x^δ, δ = 4Ne·Δmu; where that factor is nearly constant on the row's scale the
+    quadrature's layout (peak, range, panels) and its integrand are computed once for
+    the middle rate and re-weighted for the others (:func:`infer.core.drift.quadrature.
+    _log_z_tilted`, which gives the others their own quadrature); the numbers agree
+    with :func:`log_binomial_probability` to its accuracy.
+
+    Parameters
+    ----------
+    k, n, Ne, s, h, nu : array_like
+        As in :func:`log_binomial_probability`; broadcast with ``mu`` and constant along
+        its last axis.
+    mu : array_like
+        Forward mutation rates; the last axis holds each row's rates.
+    log_z : array_like
+        :func:`log_normaliser` at each (row, rate), broadcast with ``mu``.
+
+    Returns
+    -------
+    numpy.ndarray
+        The log probability, the broadcast shape (last axis: the rates).
+    """
+    k, n = _check_counts(k, n)
+    mu = np.asarray(mu, dtype=float)
+    shape = np.broadcast_shapes(k.shape, n.shape, np.shape(Ne), mu.shape, np.shape(s),
+                                np.shape(h), np.shape(nu), np.shape(log_z))
+    if len(shape) == 0 or shape[-1] < 2:
+        return log_binomial_probability(k, n, Ne, mu, s, h, nu, log_z=log_z)
+    _, a, b, c, hh, (kk, nn, given) = _exponents(Ne, mu, s, h, nu, k, n, log_z)
+    mask, peak = _peak_rule.concentrated(a, b, c, hh)
+    if peak is not None:  # large Ne somewhere: the rows' own rule
+        return log_binomial_probability(k, n, Ne, mu, s, h, nu, log_z=log_z)
+    m = shape[-1]
+    a, b, c, hh, kk, nn, given = (v.reshape(-1, m) for v in (a, b, c, hh, kk, nn, given))
+    middle = m // 2
+    A = a + kk
+    sample = _log_z_tilted(A[:, middle], b[:, middle] + (nn[:, middle] - kk[:, middle]),
+                           c[:, middle], hh[:, middle], A - A[:, middle:middle + 1])
+    return (log_choose(nn, kk) + sample - given).reshape(shape)
 
 
 def _log_ratio(k, n, a, b, c, h, log_z=None):

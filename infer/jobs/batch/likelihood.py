@@ -114,12 +114,15 @@ def drift_coarse_log_likelihood(k, n, mu, mu_sigma, settings):
     near-quadratic). The normaliser of Wright's density, the same for every locus at a
     given (mu, s_het), is interpolated from a table along mu
     (:mod:`infer.core.drift.normaliser_table`), so each (locus, node) costs one
-    quadrature, the sample's.
+    quadrature, the sample's; and the 9 rates of a (locus, s_het node) share that
+    quadrature's layout and integrand, re-weighted by x^δ for each rate
+    (:func:`~infer.core.drift.stationary.log_binomial_probability_along_mu`).
     """
     from scipy.interpolate import CubicSpline
 
     from infer.core.drift.normaliser_table import tabulated_log_normaliser
-    from infer.core.drift.stationary import log_binomial_probability
+    from infer.core.drift.stationary import (log_binomial_probability,
+                                             log_binomial_probability_along_mu)
 
     k, n = np.asarray(k, dtype=float), np.asarray(n, dtype=float)
     mu, mu_sigma = np.asarray(mu, dtype=float), np.asarray(mu_sigma, dtype=float)
@@ -148,7 +151,7 @@ def drift_coarse_log_likelihood(k, n, mu, mu_sigma, settings):
         same = rows[sizes[rows] == size]   # blocks of loci with one rule size
         for start in range(0, same.size, _DRIFT_BLOCK):   # blocks of rows bound the memory
             block = same[start:start + _DRIFT_BLOCK]
-            at_nodes = log_binomial_probability(
+            at_nodes = log_binomial_probability_along_mu(
                 k[block, None, None], n[block, None, None], settings.Ne,
                 nodes[block, None, :], two_s[None, :, None], 0.5, settings.nu,
                 log_z=np.swapaxes(log_z[block], 1, 2))
