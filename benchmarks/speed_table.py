@@ -42,6 +42,15 @@ def figure_lines(arguments: list[str], pattern: str) -> list[str]:
     return [line.strip() for line in done.stdout.splitlines() if re.search(pattern, line)]
 
 
+def _chose_faster(text: str) -> bool:
+    """Whether a crossover line's chosen process count is the faster one it measured."""
+    faster = re.search(r"faster: (one|two)", text)
+    chosen = re.search(r"runs (\d+) process", text)
+    if faster is None or chosen is None:
+        return False
+    return int(chosen.group(1)) == (1 if faster.group(1) == "one" else 2)
+
+
 def row(script: str, line: str) -> str:
     """A table row for one printed figure (estimate.py's own table rows are kept whole)."""
     if line.startswith("|"):
@@ -50,7 +59,10 @@ def row(script: str, line: str) -> str:
         return (f"| `{script}`: {study} ({free} free), whole process | {seconds} s, "
                 f"{ratio}x the import baseline, converged/verified {verdict}, "
                 f"bulk ESS/s {ess} | island <= 2.5x; ridge-3 < 5 s and >= 1,000 ESS/s |")
-    text = line.replace("|", "/")
+    text = " ".join(line.replace("|", "/").split())
+    if "loci: one process" in text:
+        return (f"| `{script}`: {text} | faster chosen: "
+                f"{'yes' if _chose_faster(text) else 'no'} | `--jobs 2` runs the faster |")
     goal = re.search(r"\(?goal\s*([<>]=?\s*[^();]+)\)?", text)
     if goal is None:
         return f"| {text} (`{script}`) | as printed | |"
