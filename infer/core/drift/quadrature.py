@@ -296,6 +296,43 @@ def _value_coefficients(coefficients):
     return coefficients
 
 
+def _gathered_panels(panels, coefficients):
+    """Each row's panels of nonzero width, gathered in row order, with their coefficients.
+
+    Returns the per-row panel counts, the panels' left and right ends and half-widths,
+    and the value coefficients repeated per panel.
+    """
+    lo, hi = panels
+    wide = hi > lo
+    counts = np.add.reduce(wide, axis=1)
+    left, right = lo[wide], hi[wide]
+    per_panel = [v.repeat(counts) if np.ndim(v) else v
+                 for v in _value_coefficients(coefficients)]
+    return counts, left, right, 0.5 * (right - left), per_panel
+
+
+def _row_chunks(counts):
+    """Chunks of whole rows whose gathered panels stay in cache.
+
+    Yields ``(r0, r1, part, some, starts)``: rows r0..r1, their panels' slice ``part`` of
+    the gathered arrays, which of those rows have panels, and where each such row's
+    panels start within the chunk (for ``reduceat``).
+    """
+    if not counts.any():
+        return
+    ends = np.cumsum(counts)
+    firsts = ends - counts
+    # chunk j takes the rows whose first panel lies in [j·size, (j+1)·size)
+    size = max(1, _CHUNK_NODES // _GL_T.size)
+    cuts = np.flatnonzero(np.diff(firsts // size)) + 1
+    for r0, r1 in zip(np.r_[0, cuts], np.r_[cuts, counts.size], strict=True):
+        p0, p1 = firsts[r0], ends[r1 - 1]
+        if p1 == p0:
+            continue
+        some = counts[r0:r1] > 0
+        yield r0, r1, slice(p0, p1), some, firsts[r0:r1][some] - p0
+
+
 def _integrate(panels, coefficients, tops=None):
     """Log ∫ exp(L(y)) dy over the panels (left, right), in chunks that stay in cache.
 
@@ -309,52 +346,34 @@ def _integrate(panels, coefficients, tops=None):
     the row's scale instead of the maximum over the nodes. A row without a wide panel
     gives -inf.
     """
-    lo, hi = panels
-    rows = lo.shape[0]
-    wide = hi > lo
-    counts = np.add.reduce(wide, axis=1)
-    left, right = lo[wide], hi[wide]
+    rows = panels[0].shape[0]
+    counts, left, right, half, per_panel = _gathered_panels(panels, coefficients)
     out = np.zeros(rows)
     shift = np.zeros(rows) if tops is None else np.where(np.isfinite(tops), tops, 0.0)
-    if left.size:
-        mid, half = 0.5 * (right + left), 0.5 * (right - left)
-        per_panel = [v.repeat(counts) if np.ndim(v) else v
-                     for v in _value_coefficients(coefficients)]
-        # one side of y = 0: L = slope·y - (A+B)·t - c·S(x), slope A (y <= 0) or -B (y >= 0)
-        left_side = right <= 0.0
-        one_side = left_side | (left >= 0.0)
-        slope = np.where(left_side, per_panel[0], per_panel[1])
-        ends = np.cumsum(counts)
-        firsts = ends - counts
-        # chunk j takes the rows whose first panel lies in [j·size, (j+1)·size)
-        size = max(1, _CHUNK_NODES // _GL_T.size)
-        cuts = np.flatnonzero(np.diff(firsts // size)) + 1
-        for r0, r1 in zip(np.r_[0, cuts], np.r_[cuts, rows], strict=True):
-            p0, p1 = firsts[r0], ends[r1 - 1]
-            if p1 == p0:
-                continue
-            some = counts[r0:r1] > 0
-            starts = firsts[r0:r1][some] - p0
-            part = slice(p0, p1)
-            nodes = np.multiply.outer(_GL_T, half[part])
-            nodes += mid[part]
-            coefficients_part = [v[part] if np.ndim(v) else v for v in per_panel]
-            if one_side[part].all():
-                values = _log_f_one_side(nodes, slope[part], left_side[part],
-                                         coefficients_part)
-            else:
-                values = _log_f_rows(nodes, coefficients_part)
-            if tops is None:
-                top = np.maximum.reduceat(np.maximum.reduce(values, axis=0), starts)
-                top[~np.isfinite(top)] = 0.0
-                shift[np.flatnonzero(some) + r0] = top
-            else:
-                top = shift[r0:r1][some]
-            values -= top.repeat(counts[r0:r1][some])
-            np.exp(values, out=values)
-            sums = _GL_W @ values
-            sums *= half[part]
-            out[np.flatnonzero(some) + r0] = np.add.reduceat(sums, starts)
+    # one side of y = 0: L = slope·y - (A+B)·t - c·S(x), slope A (y <= 0) or -B (y >= 0)
+    left_side = right <= 0.0
+    one_side = left_side | (left >= 0.0)
+    slope = np.where(left_side, per_panel[0], per_panel[1])
+    for r0, r1, part, some, starts in _row_chunks(counts):
+        nodes = np.multiply.outer(_GL_T, half[part])
+        nodes += 0.5 * (right[part] + left[part])
+        coefficients_part = [v[part] if np.ndim(v) else v for v in per_panel]
+        if one_side[part].all():
+            values = _log_f_one_side(nodes, slope[part], left_side[part],
+                                     coefficients_part)
+        else:
+            values = _log_f_rows(nodes, coefficients_part)
+        if tops is None:
+            top = np.maximum.reduceat(np.maximum.reduce(values, axis=0), starts)
+            top[~np.isfinite(top)] = 0.0
+            shift[np.flatnonzero(some) + r0] = top
+        else:
+            top = shift[r0:r1][some]
+        values -= top.repeat(counts[r0:r1][some])
+        np.exp(values, out=values)
+        sums = _GL_W @ values
+        sums *= half[part]
+        out[np.flatnonzero(some) + r0] = np.add.reduceat(sums, starts)
     with np.errstate(divide="ignore"):
         np.log(out, out=out)
     out += shift
@@ -496,45 +515,28 @@ def _integrate_tilted(panels, coefficients, tops, deltas, log_x_peak):
     As :func:`_integrate` (the integrand evaluated once per node, in chunks of whole
     rows), each row scaled by its peak value ``tops`` + δ_j·``log_x_peak``.
     """
-    lo, hi = panels
     rows, m = deltas.shape
-    wide = hi > lo
-    counts = np.add.reduce(wide, axis=1)
-    left, right = lo[wide], hi[wide]
+    counts, left, right, half, per_panel = _gathered_panels(panels, coefficients)
     out = np.zeros((rows, m))
     shift = np.where(np.isfinite(tops), tops, 0.0)
-    if left.size:
-        mid, half = 0.5 * (right + left), 0.5 * (right - left)
-        per_panel = [v.repeat(counts) if np.ndim(v) else v
-                     for v in _value_coefficients(coefficients)]
-        panel_deltas = deltas.repeat(counts, axis=0)                    # (panels, m)
-        panel_base = shift.repeat(counts)
-        panel_peak = log_x_peak.repeat(counts)
-        ends = np.cumsum(counts)
-        firsts = ends - counts
-        size = max(1, _CHUNK_NODES // _GL_T.size)
-        cuts = np.flatnonzero(np.diff(firsts // size)) + 1
-        for r0, r1 in zip(np.r_[0, cuts], np.r_[cuts, rows], strict=True):
-            p0, p1 = firsts[r0], ends[r1 - 1]
-            if p1 == p0:
-                continue
-            some = counts[r0:r1] > 0
-            starts = firsts[r0:r1][some] - p0
-            part = slice(p0, p1)
-            nodes = np.multiply.outer(_GL_T, half[part])
-            nodes += mid[part]
-            values = _log_f_rows(nodes, [v[part] if np.ndim(v) else v for v in per_panel])
-            values -= panel_base[part]
-            log_x = _log_x(nodes)
-            log_x -= panel_peak[part]
-            target = np.flatnonzero(some) + r0
-            for j in range(m):
-                tilted = log_x * panel_deltas[part, j]
-                tilted += values
-                np.exp(tilted, out=tilted)
-                sums = _GL_W @ tilted
-                sums *= half[part]
-                out[target, j] = np.add.reduceat(sums, starts)
+    panel_deltas = deltas.repeat(counts, axis=0)                    # (panels, m)
+    panel_base = shift.repeat(counts)
+    panel_peak = log_x_peak.repeat(counts)
+    for r0, _, part, some, starts in _row_chunks(counts):
+        nodes = np.multiply.outer(_GL_T, half[part])
+        nodes += 0.5 * (right[part] + left[part])
+        values = _log_f_rows(nodes, [v[part] if np.ndim(v) else v for v in per_panel])
+        values -= panel_base[part]
+        log_x = _log_x(nodes)
+        log_x -= panel_peak[part]
+        target = np.flatnonzero(some) + r0
+        for j in range(m):
+            tilted = log_x * panel_deltas[part, j]
+            tilted += values
+            np.exp(tilted, out=tilted)
+            sums = _GL_W @ tilted
+            sums *= half[part]
+            out[target, j] = np.add.reduceat(sums, starts)
     with np.errstate(divide="ignore"):
         np.log(out, out=out)
     out += shift[:, None] + deltas * log_x_peak[:, None]
